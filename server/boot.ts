@@ -1,0 +1,67 @@
+/**
+ * Start-up shared by `npm start`, the job runner and the benchmark: find or
+ * launch the database, migrate, grant, and open the app's pool.
+ */
+import { randomBytes } from 'node:crypto';
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { join, resolve } from 'node:path';
+import type { Config } from './config';
+import { createDb, createPool, type Db, type DbTarget, type Pool } from './db/client';
+import { grantAppAccount } from './db/grants';
+import { launchMariaDb, type LaunchedMariaDb } from './db/mariadb';
+import { runMigrations } from './db/migrate';
+import type { Logger } from './log';
+
+export interface Database {
+  db: Db;
+  pool: Pool;
+  launched?: LaunchedMariaDb;
+  close(): Promise<void>;
+}
+
+export async function openDatabase(config: Config, log: Logger, opts: { fast?: boolean } = {}): Promise<Database> {
+  let launched: LaunchedMariaDb | undefined;
+  let target: DbTarget;
+  if (config.DATABASE_URL) {
+    await runMigrations(config.MIGRATION_DATABASE_URL ?? config.DATABASE_URL);
+    target = config.DATABASE_URL;
+  } else {
+    launched = await launchMariaDb({
+      baseDir: join(config.DATA_DIR, 'mariadb'),
+      database: 'keepwell',
+      fast: opts.fast,
+      log: (l) => log.info(l),
+    });
+    try {
+      await runMigrations(launched.admin);
+      await grantAppAccount(launched.admin, launched.app.user);
+    } catch (err) {
+      await launched.stop();
+      throw err;
+    }
+    target = launched.app;
+  }
+  const pool = createPool(target);
+  const db = createDb(pool);
+  return {
+    db,
+    pool,
+    launched,
+    async close() {
+      await pool.end();
+      await launched?.stop();
+    },
+  };
+}
+
+/** SESSION_SECRET, or one generated once and kept in the data folder. */
+export function sessionSecret(config: Config): string {
+  if (config.SESSION_SECRET) return config.SESSION_SECRET;
+  const dir = resolve(config.DATA_DIR);
+  const file = join(dir, 'session-secret');
+  if (existsSync(file)) return readFileSync(file, 'utf8').trim();
+  mkdirSync(dir, { recursive: true });
+  const secret = randomBytes(32).toString('base64url');
+  writeFileSync(file, secret, { mode: 0o600 });
+  return secret;
+}

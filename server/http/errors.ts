@@ -1,0 +1,91 @@
+import type { ErrorRequestHandler, RequestHandler } from 'express';
+import { z } from 'zod';
+
+export type ErrorCode =
+  | 'bad_request'
+  | 'malformed_json'
+  | 'validation'
+  | 'unauthenticated'
+  | 'forbidden'
+  | 'csrf'
+  | 'not_found'
+  | 'conflict'
+  | 'too_large'
+  | 'unsupported_type'
+  | 'unprocessable'
+  | 'rate_limited'
+  | 'unavailable'
+  | 'internal';
+
+/** An error with an HTTP status and a stable code, answered as JSON. */
+export class HttpError extends Error {
+  constructor(
+    public status: number,
+    public code: ErrorCode,
+    message: string,
+    public fields?: Record<string, string>,
+  ) {
+    super(message);
+  }
+}
+
+export const notFound = (what = 'Not found') => new HttpError(404, 'not_found', what);
+export const forbidden = (message = 'Your role does not allow this') => new HttpError(403, 'forbidden', message);
+export const conflict = (message: string, fields?: Record<string, string>) => new HttpError(409, 'conflict', message, fields);
+export const unprocessable = (message: string, fields?: Record<string, string>) =>
+  new HttpError(422, 'unprocessable', message, fields);
+
+/** Turns zod issues into { "field.path": "message" } (first message per field). */
+export function fieldsFromZod(error: z.ZodError): Record<string, string> {
+  const fields: Record<string, string> = {};
+  for (const issue of error.issues) {
+    if (issue.code === 'unrecognized_keys') {
+      for (const key of issue.keys) {
+        const path = [...issue.path, key].join('.');
+        fields[path] ??= 'Unknown field';
+      }
+      continue;
+    }
+    const path = issue.path.length ? issue.path.join('.') : '_';
+    fields[path] ??= issue.message;
+  }
+  return fields;
+}
+
+/** Parses input with a shared zod schema or throws a 400 naming each bad field. */
+export function parse<S extends z.ZodType>(schema: S, input: unknown, where = 'body'): z.infer<S> {
+  const result = schema.safeParse(input);
+  if (!result.success) {
+    const fields = fieldsFromZod(result.error);
+    const names = Object.keys(fields).join(', ');
+    throw new HttpError(400, 'validation', `Invalid ${where}: check ${names}`, fields);
+  }
+  return result.data;
+}
+
+/** A numeric id in the path: anything else is simply not found. */
+export function idParam(value: unknown): number {
+  const s = String(value);
+  if (!/^[1-9][0-9]{0,15}$/.test(s)) throw notFound();
+  return Number(s);
+}
+
+export const apiNotFound: RequestHandler = (_req, _res, next) => next(notFound('No such API route'));
+
+export function errorHandler(log: (msg: string, err?: unknown) => void): ErrorRequestHandler {
+  return (err, req, res, _next) => {
+    let e: HttpError;
+    if (err instanceof HttpError) e = err;
+    else if (err?.type === 'entity.parse.failed') e = new HttpError(400, 'malformed_json', 'The request body is not valid JSON');
+    else if (err?.type === 'entity.too.large') e = new HttpError(413, 'too_large', 'The request body is too large');
+    else if (err?.type === 'encoding.unsupported' || err?.type === 'charset.unsupported')
+      e = new HttpError(415, 'unsupported_type', 'Unsupported body encoding');
+    else if (err instanceof z.ZodError) e = new HttpError(400, 'validation', 'Invalid input', fieldsFromZod(err));
+    else {
+      log(`Unhandled error on ${req.method} ${req.originalUrl}`, err);
+      e = new HttpError(500, 'internal', 'Something went wrong on our side; it has been logged');
+    }
+    if (res.headersSent) return;
+    res.status(e.status).json({ error: { code: e.code, message: e.message, ...(e.fields ? { fields: e.fields } : {}) } });
+  };
+}

@@ -1,0 +1,77 @@
+import { Router, type RequestHandler } from 'express';
+import { rateLimit } from 'express-rate-limit';
+import { signInInput } from '../../shared/schemas/auth';
+import type { SignInFailure, createPassport } from '../auth/passport';
+import { member, toSessionUser } from '../auth/session-user';
+import { HttpError, parse } from '../http/errors';
+import type { Logger } from '../log';
+
+export interface AuthRouteOptions {
+  passport: ReturnType<typeof createPassport>;
+  log: Logger;
+  cookieName: string;
+  /** Sign-in attempts allowed per IP per window. */
+  ipLimit: number;
+  ipWindowMs: number;
+}
+
+export function authRoutes(o: AuthRouteOptions): Router {
+  const r = Router();
+
+  const ipLimiter = rateLimit({
+    windowMs: o.ipWindowMs,
+    limit: o.ipLimit,
+    standardHeaders: 'draft-8',
+    legacyHeaders: false,
+    // Only failed attempts count: a busy lab behind one address can still sign in.
+    skipSuccessfulRequests: true,
+    handler: (req, _res, next) => {
+      o.log.warn(`sign-in rate limit reached for ip ${req.ip}`);
+      next(new HttpError(429, 'rate_limited', 'Too many sign-in attempts from this address; wait a few minutes'));
+    },
+  });
+
+  const validate: RequestHandler = (req, _res, next) => {
+    req.body = parse(signInInput, req.body);
+    next();
+  };
+
+  r.post('/sign-in', ipLimiter, validate, (req, res, next) => {
+    o.passport.authenticate('local', (err: unknown, user: Express.User | false, info?: SignInFailure) => {
+      if (err) return next(err);
+      if (!user) {
+        const failure = info?.status ? info : { status: 401 as const, message: 'E-mail or password is wrong' };
+        if (failure.retryAfterSeconds) res.set('Retry-After', String(failure.retryAfterSeconds));
+        return next(new HttpError(failure.status, failure.status === 429 ? 'rate_limited' : 'unauthenticated', failure.message));
+      }
+      // passport 0.7 regenerates the session here, so the id changes at sign-in.
+      req.logIn(user, (loginErr) => {
+        if (loginErr) return next(loginErr);
+        res.json({ user: toSessionUser(user) });
+      });
+    })(req, res, next);
+  });
+
+  r.post('/sign-out', (req, res, next) => {
+    if (!req.user) return res.status(204).end();
+    req.logOut((err) => {
+      if (err) return next(err);
+      req.session.destroy((destroyErr) => {
+        if (destroyErr) return next(destroyErr);
+        res.clearCookie(o.cookieName);
+        res.status(204).end();
+      });
+    });
+  });
+
+  /** Who is signed in, or null: always 200, so the client's first look needs no error. */
+  r.get('/session', (req, res) => {
+    res.json({ user: req.user ? toSessionUser(req.user) : null });
+  });
+
+  r.get('/me', (req, res) => {
+    res.json({ user: toSessionUser(member(req)) });
+  });
+
+  return r;
+}

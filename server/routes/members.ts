@@ -1,0 +1,78 @@
+import { and, asc, eq, sql } from 'drizzle-orm';
+import { Router } from 'express';
+import { memberRoleInput, type Member } from '../../shared/schemas/auth';
+import { requireRole } from '../auth/guards';
+import { member } from '../auth/session-user';
+import type { Db, DbOrTx } from '../db/client';
+import { users } from '../db/schema';
+import { conflict, idParam, notFound, parse } from '../http/errors';
+import { audit } from '../services/audit';
+
+const columns = {
+  id: users.id,
+  name: users.name,
+  email: users.email,
+  role: users.role,
+  active: users.active,
+  lastSignInAt: users.lastSignInAt,
+};
+
+function toMember(r: { id: number; name: string; email: string; role: Member['role']; active: boolean; lastSignInAt: Date | null }): Member {
+  return { ...r, lastSignInAt: r.lastSignInAt?.toISOString() ?? null };
+}
+
+/** One member of the given lab, or 404 (another lab's ids look exactly like unknown ids). */
+async function findMember(db: DbOrTx, labId: number, id: number, lock = false) {
+  const q = db.select(columns).from(users).where(and(eq(users.labId, labId), eq(users.id, id))).limit(1);
+  const [row] = lock ? await q.for('update') : await q;
+  if (!row) throw notFound('No such member in your lab');
+  return row;
+}
+
+export function memberRoutes(db: Db): Router {
+  const r = Router();
+  r.use(requireRole('owner'));
+
+  r.get('/', async (req, res) => {
+    const me = member(req);
+    const rows = await db.select(columns).from(users).where(eq(users.labId, me.labId)).orderBy(asc(users.name));
+    res.json({ members: rows.map(toMember) });
+  });
+
+  r.get('/:id', async (req, res) => {
+    const me = member(req);
+    res.json({ member: toMember(await findMember(db, me.labId, idParam(req.params.id))) });
+  });
+
+  r.patch('/:id', async (req, res) => {
+    const me = member(req);
+    const id = idParam(req.params.id);
+    const input = parse(memberRoleInput, req.body);
+    const updated = await db.transaction(async (tx) => {
+      const before = await findMember(tx, me.labId, id, true);
+      if (before.role === input.role) return before;
+      if (before.role === 'owner') {
+        const [{ owners }] = await tx
+          .select({ owners: sql<number>`count(*)` })
+          .from(users)
+          .where(and(eq(users.labId, me.labId), eq(users.role, 'owner'), eq(users.active, true)))
+          .for('update');
+        if (Number(owners) <= 1) throw conflict('A lab needs at least one owner: make someone else owner first', { role: 'The last owner cannot be demoted' });
+      }
+      await tx.update(users).set({ role: input.role }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      await audit(tx, {
+        labId: me.labId,
+        userId: me.id,
+        action: 'update',
+        entity: 'user',
+        entityId: id,
+        oldValue: { role: before.role },
+        newValue: { role: input.role },
+      });
+      return { ...before, role: input.role };
+    });
+    res.json({ member: toMember(updated) });
+  });
+
+  return r;
+}

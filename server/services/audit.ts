@@ -1,0 +1,27 @@
+import type { DbOrTx } from '../db/client';
+import { auditLog } from '../db/schema';
+
+export interface AuditEntry {
+  labId: number;
+  userId: number | null;
+  action: 'create' | 'update' | 'delete' | 'void' | 'sign' | 'sign_in' | 'lockout' | 'amend' | 'import';
+  entity: string;
+  entityId?: string | number | null;
+  oldValue?: unknown;
+  newValue?: unknown;
+  reason?: string | null;
+}
+
+/** Writes one audit row; call it inside the transaction that makes the change. */
+export async function audit(db: DbOrTx, e: AuditEntry): Promise<void> {
+  await db.insert(auditLog).values({
+    labId: e.labId,
+    userId: e.userId,
+    action: e.action,
+    entity: e.entity,
+    entityId: e.entityId == null ? null : String(e.entityId),
+    oldValue: e.oldValue ?? null,
+    newValue: e.newValue ?? null,
+    reason: e.reason ?? null,
+  });
+}

@@ -1,0 +1,46 @@
+import { createRouter, createWebHistory, type RouteRecordRaw } from 'vue-router';
+import type { Role } from '@shared/roles';
+import { useSessionStore } from '@/stores/session';
+
+declare module 'vue-router' {
+  interface RouteMeta {
+    title?: string;
+    /** Pages open without signing in. */
+    public?: boolean;
+    minRole?: Role;
+  }
+}
+
+const routes: RouteRecordRaw[] = [
+  { path: '/sign-in', name: 'sign-in', component: () => import('@/views/SignInView.vue'), meta: { public: true, title: 'Sign in' } },
+  {
+    path: '/',
+    component: () => import('@/components/AppShell.vue'),
+    children: [
+      { path: '', redirect: { name: 'bench' } },
+      { path: 'bench', name: 'bench', component: () => import('@/views/BenchView.vue'), meta: { title: 'Bench', minRole: 'technician' } },
+      { path: 'studies', name: 'studies', component: () => import('@/views/StudiesView.vue'), meta: { title: 'Studies', minRole: 'technician' } },
+      { path: 'formulas', name: 'formulas', component: () => import('@/views/FormulasView.vue'), meta: { title: 'Formulas', minRole: 'technician' } },
+      { path: 'storage', name: 'storage', component: () => import('@/views/StorageView.vue'), meta: { title: 'Storage', minRole: 'technician' } },
+      { path: 'reviews', name: 'reviews', component: () => import('@/views/ReviewsView.vue'), meta: { title: 'Reviews', minRole: 'owner' } },
+      { path: 'lab', name: 'lab', component: () => import('@/views/LabView.vue'), meta: { title: 'Lab', minRole: 'owner' } },
+      { path: 'not-allowed', name: 'not-allowed', component: () => import('@/views/NotAllowedView.vue'), meta: { title: 'Not available' } },
+      { path: ':rest(.*)*', name: 'not-found', component: () => import('@/views/NotFoundView.vue'), meta: { title: 'Not found' } },
+    ],
+  },
+];
+
+export const router = createRouter({ history: createWebHistory(), routes });
+
+router.beforeEach(async (to) => {
+  const session = useSessionStore();
+  await session.load();
+  if (to.meta.public) return session.user && to.name === 'sign-in' ? { name: 'bench' } : true;
+  if (!session.user) return { name: 'sign-in', query: to.fullPath !== '/' ? { next: to.fullPath } : {} };
+  if (to.meta.minRole && !session.can(to.meta.minRole)) return { name: 'not-allowed', query: { page: String(to.meta.title ?? '') } };
+  return true;
+});
+
+router.afterEach((to) => {
+  document.title = to.meta.title ? `${to.meta.title} · Keepwell` : 'Keepwell';
+});

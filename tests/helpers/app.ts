@@ -1,0 +1,107 @@
+/**
+ * A real app on a real MariaDB for one test file: a fresh database with the
+ * committed migrations, the app account's grants, and the demo labs.
+ */
+import { randomBytes } from 'node:crypto';
+import mysql from 'mysql2/promise';
+import supertest from 'supertest';
+import { inject } from 'vitest';
+import { createApp, type AppDeps } from '../../server/app';
+import { loadConfig } from '../../server/config';
+import { createDb, createPool, type Db, type Pool } from '../../server/db/client';
+import { grantAppAccount } from '../../server/db/grants';
+import type { ConnectionTarget } from '../../server/db/mariadb';
+import { runMigrations } from '../../server/db/migrate';
+import { DEMO_PASSWORD } from '../../server/demo/people';
+import { seedDemo, type SeededLab } from '../../server/demo/seed';
+import { createLogger } from '../../server/log';
+
+export { DEMO_PASSWORD };
+
+export const DEMO = {
+  owner: 'owner@larkspur.example',
+  formulator: 'formulator@larkspur.example',
+  technician: 'tech@larkspur.example',
+  otherOwner: 'owner@copperbeech.example',
+  otherTechnician: 'tech@copperbeech.example',
+} as const;
+
+/** A supertest agent that keeps its cookie and sends the CSRF header on changes. */
+export class Client {
+  readonly agent: ReturnType<typeof supertest.agent>;
+  constructor(app: Parameters<typeof supertest.agent>[0]) {
+    this.agent = supertest.agent(app);
+  }
+  get(path: string) {
+    return this.agent.get(path);
+  }
+  post(path: string, body?: object) {
+    return this.agent.post(path).set('X-Keepwell-Request', '1').send(body ?? {});
+  }
+  patch(path: string, body: object) {
+    return this.agent.patch(path).set('X-Keepwell-Request', '1').send(body);
+  }
+  put(path: string, body: object) {
+    return this.agent.put(path).set('X-Keepwell-Request', '1').send(body);
+  }
+  delete(path: string) {
+    return this.agent.delete(path).set('X-Keepwell-Request', '1');
+  }
+}
+
+export interface TestApp {
+  app: ReturnType<typeof createApp>['app'];
+  db: Db;
+  pool: Pool;
+  admin: ConnectionTarget;
+  database: string;
+  labs: SeededLab[];
+  client(): Client;
+  signIn(email: string, password?: string): Promise<Client>;
+  close(): Promise<void>;
+}
+
+export async function createTestApp(overrides: Partial<AppDeps> = {}): Promise<TestApp> {
+  const m = inject('mariadb');
+  const database = `kw_${randomBytes(5).toString('hex')}`;
+  const admin: ConnectionTarget = { socketPath: m.socketPath, user: 'root', password: '', database };
+  const conn = await mysql.createConnection({ socketPath: m.socketPath, user: 'root', password: '' });
+  await conn.query(`CREATE DATABASE \`${database}\``);
+  await conn.end();
+  await runMigrations(admin);
+  await grantAppAccount(admin, m.appUser);
+  const pool = createPool({ host: '127.0.0.1', port: m.port, user: m.appUser, password: m.appPassword, database }, 10);
+  const db = createDb(pool);
+  const labs = await seedDemo(db);
+  const { app, close } = createApp({
+    db,
+    pool,
+    config: loadConfig({ NODE_ENV: 'test' }),
+    log: createLogger(true),
+    sessionSecret: 'test-secret-that-is-long-enough',
+    serveClient: false,
+    ...overrides,
+  });
+  return {
+    app,
+    db,
+    pool,
+    admin,
+    database,
+    labs,
+    client: () => new Client(app),
+    async signIn(email, password = DEMO_PASSWORD) {
+      const c = new Client(app);
+      const res = await c.post('/api/auth/sign-in', { email, password });
+      if (res.status !== 200) throw new Error(`sign-in as ${email} failed: ${res.status} ${JSON.stringify(res.body)}`);
+      return c;
+    },
+    async close() {
+      await close();
+      await pool.end();
+      const c = await mysql.createConnection({ socketPath: m.socketPath, user: 'root', password: '' });
+      await c.query(`DROP DATABASE IF EXISTS \`${database}\``);
+      await c.end();
+    },
+  };
+}
