@@ -4,6 +4,6 @@ import { defineConfig } from 'drizzle-kit';
 // applied from code at start-up (server/db/migrate.ts); see DEVELOPERS.md.
 export default defineConfig({
   dialect: 'mysql',
-  schema: './server/db/schema.ts',
+  schema: './server/db/schema/*.ts',
   out: './server/db/migrations',
 });

@@ -19,6 +19,8 @@ import type { Logger } from './log';
 import { authRoutes } from './routes/auth';
 import { healthRoute, labRoutes } from './routes/lab';
 import { memberRoutes } from './routes/members';
+import { formulaRoutes } from './routes/formulas';
+import { storageRoutes } from './routes/storage';
 
 export const SESSION_COOKIE = 'kw.sid';
 const DIST = fileURLToPath(new URL('../dist', import.meta.url));
@@ -111,6 +113,8 @@ export function createApp(deps: AppDeps) {
   );
   api.use('/lab', labRoutes(db));
   api.use('/members', memberRoutes(db));
+  api.use(formulaRoutes(db));
+  api.use(storageRoutes(db));
   api.use(apiNotFound);
   app.use('/api', api);
 

@@ -19,7 +19,7 @@ import {
   uniqueIndex,
   index,
 } from 'drizzle-orm/mysql-core';
-import { ROLES } from '../../shared/roles';
+import { ROLES } from '../../../shared/roles';
 
 /** A creation time set by the server (UTC). */
 export const createdAt = (name = 'created_at') => datetime(name, { mode: 'date', fsp: 3 }).notNull().default(sql`CURRENT_TIMESTAMP(3)`);

@@ -1,0 +1,4 @@
+/** All tables, one file per area. drizzle-kit reads every file in this folder. */
+export * from './core';
+export * from './formulas';
+export * from './storage';
