@@ -21,6 +21,8 @@ import { healthRoute, labRoutes } from './routes/lab';
 import { memberRoutes } from './routes/members';
 import { formulaRoutes } from './routes/formulas';
 import { storageRoutes } from './routes/storage';
+import { studyRoutes } from './routes/studies';
+import { accountRoutes } from './routes/account';
 
 export const SESSION_COOKIE = 'kw.sid';
 const DIST = fileURLToPath(new URL('../dist', import.meta.url));
@@ -115,6 +117,8 @@ export function createApp(deps: AppDeps) {
   api.use('/members', memberRoutes(db));
   api.use(formulaRoutes(db));
   api.use(storageRoutes(db));
+  api.use(studyRoutes(db));
+  api.use(accountRoutes(db));
   api.use(apiNotFound);
   app.use('/api', api);
 

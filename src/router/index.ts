@@ -13,6 +13,9 @@ declare module 'vue-router' {
 
 const routes: RouteRecordRaw[] = [
   { path: '/sign-in', name: 'sign-in', component: () => import('@/views/SignInView.vue'), meta: { public: true, title: 'Sign in' } },
+  { path: '/forgot-password', name: 'forgot-password', component: () => import('@/views/account/ForgotPasswordView.vue'), meta: { public: true, title: 'Forgot password' } },
+  { path: '/reset-password/:token', name: 'reset-password', component: () => import('@/views/account/ResetPasswordView.vue'), meta: { public: true, title: 'Choose a new password' } },
+  { path: '/invitation/:token', name: 'accept-invitation', component: () => import('@/views/account/AcceptInvitationView.vue'), meta: { public: true, title: 'Join your lab' } },
   {
     path: '/',
     component: () => import('@/components/AppShell.vue'),
@@ -31,6 +34,13 @@ const routes: RouteRecordRaw[] = [
       { path: 'storage/logs/:logId', name: 'chamber-log', component: () => import('@/views/storage/ChamberLogView.vue'), meta: { title: 'Chamber log', minRole: 'technician' } },
       { path: 'reviews', name: 'reviews', component: () => import('@/views/ReviewsView.vue'), meta: { title: 'Reviews', minRole: 'owner' } },
       { path: 'lab', name: 'lab', component: () => import('@/views/LabView.vue'), meta: { title: 'Lab', minRole: 'owner' } },
+      { path: 'lab/outbox', name: 'outbox', component: () => import('@/views/lab/OutboxView.vue'), meta: { title: 'Outbox', minRole: 'owner' } },
+      { path: 'studies/new', name: 'study-new', component: () => import('@/views/studies/PlanBuilderView.vue'), meta: { title: 'Plan a study', minRole: 'formulator' } },
+      { path: 'studies/:studyId', name: 'study', component: () => import('@/views/studies/StudyView.vue'), meta: { title: 'Study', minRole: 'technician' } },
+      { path: 'studies/:studyId/edit', name: 'study-edit', component: () => import('@/views/studies/PlanBuilderView.vue'), meta: { title: 'Edit study plan', minRole: 'formulator' } },
+      { path: 'studies/:studyId/labels', name: 'study-labels', component: () => import('@/views/studies/LabelsView.vue'), meta: { title: 'Sample labels', minRole: 'technician' } },
+      { path: 'samples/:sampleCode', name: 'sample', component: () => import('@/views/studies/SampleView.vue'), meta: { title: 'Sample', minRole: 'technician' } },
+      { path: 'attributes', name: 'attributes', component: () => import('@/views/studies/AttributesView.vue'), meta: { title: 'Attributes', minRole: 'technician' } },
       { path: 'not-allowed', name: 'not-allowed', component: () => import('@/views/NotAllowedView.vue'), meta: { title: 'Not available' } },
       { path: ':rest(.*)*', name: 'not-found', component: () => import('@/views/NotFoundView.vue'), meta: { title: 'Not found' } },
     ],
