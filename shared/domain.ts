@@ -47,3 +47,51 @@ export type ConditionKind = (typeof CONDITION_KINDS)[number];
 
 export const LIGHT_SOURCES = ['daylight', 'uv_cabinet'] as const;
 export type LightSource = (typeof LIGHT_SOURCES)[number];
+
+export { ATTRIBUTE_KINDS } from './compute/criteria';
+export type { Offset as PlanOffset } from './compute/schedule';
+
+/** One step of a graded attribute's ordinal scale (0 = best). */
+export interface AttributeScaleStep {
+  grade: number;
+  label: string;
+}
+
+/** A method detail recorded with a reading, e.g. pH "neat / 10 % dispersion / 1 % dispersion". */
+export interface MethodField {
+  key: string;
+  label: string;
+  /** Fixed choices; free text (or a number with `unit`) when absent. */
+  options?: string[];
+  unit?: string;
+}
+
+export const STUDY_STATUSES = ['draft', 'running', 'in_review', 'decided', 'cancelled'] as const;
+export type StudyStatus = (typeof STUDY_STATUSES)[number];
+export const STUDY_STATUS_LABELS: Record<StudyStatus, string> = {
+  draft: 'Draft',
+  running: 'Running',
+  in_review: 'In review',
+  decided: 'Decided',
+  cancelled: 'Cancelled',
+};
+
+/** What a storage condition is for in a study. */
+export const CONDITION_ROLES = ['control', 'real_time', 'accelerated', 'stress'] as const;
+export type ConditionRole = (typeof CONDITION_ROLES)[number];
+export const CONDITION_ROLE_LABELS: Record<ConditionRole, string> = {
+  control: 'Control',
+  real_time: 'Real time',
+  accelerated: 'Accelerated',
+  stress: 'Stress test',
+};
+
+export const CHECKPOINT_STATUSES = ['open', 'done', 'missed'] as const;
+export type CheckpointStatus = (typeof CHECKPOINT_STATUSES)[number];
+
+export const AMENDMENT_KINDS = ['add_checkpoint', 'end_condition', 'cancel', 'other'] as const;
+export type AmendmentKind = (typeof AMENDMENT_KINDS)[number];
+
+/** Stored verdict of an observation: the evaluation's verdict, or not done (with a reason). */
+export const VERDICTS = ['pass', 'fail', 'no_criterion', 'needs_baseline', 'not_done'] as const;
+export type StoredVerdict = (typeof VERDICTS)[number];

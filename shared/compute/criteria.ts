@@ -7,7 +7,7 @@ import { roundTo } from './units';
 
 /** What kind of value an attribute records. */
 export type AttributeKind = 'measured' | 'graded' | 'compared' | 'pass_fail' | 'note';
-export const ATTRIBUTE_KINDS: readonly AttributeKind[] = ['measured', 'graded', 'compared', 'pass_fail', 'note'];
+export const ATTRIBUTE_KINDS = ['measured', 'graded', 'compared', 'pass_fail', 'note'] as const satisfies readonly AttributeKind[];
 
 /** Comparison with the control sample, best to worst. */
 export type ComparedLevel = 'no_change' | 'slight' | 'marked' | 'severe';

@@ -2,3 +2,4 @@
 export * from './core';
 export * from './formulas';
 export * from './storage';
+export * from './studies';

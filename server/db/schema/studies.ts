@@ -1,0 +1,216 @@
+/**
+ * Attributes (what is checked), studies (the stability protocol), their
+ * samples and dated checkpoints, amendments, and observations.
+ */
+import { sql } from 'drizzle-orm';
+import {
+  mysqlTable,
+  varchar,
+  text,
+  int,
+  boolean,
+  date,
+  datetime,
+  json,
+  mysqlEnum,
+  double,
+  uniqueIndex,
+  index,
+  primaryKey,
+} from 'drizzle-orm/mysql-core';
+import {
+  ATTRIBUTE_KINDS,
+  STUDY_STATUSES,
+  CONDITION_ROLES,
+  CHECKPOINT_STATUSES,
+  AMENDMENT_KINDS,
+  VERDICTS,
+  type AttributeScaleStep,
+  type MethodField,
+  type PlanOffset,
+} from '../../../shared/domain';
+import type { Criterion } from '../../../shared/compute/criteria';
+import { createdAt, pk, ref, labs, users } from './core';
+import { batches, products } from './formulas';
+import { storageConditions } from './storage';
+
+export const attributes = mysqlTable(
+  'attributes',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull().references(() => labs.id),
+    /** Stable short key, e.g. "ph", "viscosity", "separation". */
+    code: varchar('code', { length: 32 }).notNull(),
+    name: varchar('name', { length: 80 }).notNull(),
+    kind: mysqlEnum('kind', ATTRIBUTE_KINDS).notNull(),
+    unit: varchar('unit', { length: 24 }),
+    decimals: int('decimals').notNull().default(2),
+    /** Graded attributes: the ordinal scale, 0 = best. */
+    scale: json('scale').$type<AttributeScaleStep[]>(),
+    /** Method details captured with each reading (pH dispersion, viscosity spindle...). */
+    methodFields: json('method_fields').$type<MethodField[]>(),
+    physicalMin: double('physical_min'),
+    physicalMax: double('physical_max'),
+    defaultCriterion: json('default_criterion').$type<Criterion>(),
+    description: text('description'),
+    builtIn: boolean('built_in').notNull().default(false),
+    active: boolean('active').notNull().default(true),
+    createdAt: createdAt(),
+  },
+  (t) => [uniqueIndex('attributes_lab_code_uq').on(t.labId, t.code)],
+);
+
+export const studies = mysqlTable(
+  'studies',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull().references(() => labs.id),
+    productId: ref('product_id').notNull().references(() => products.id),
+    title: varchar('title', { length: 160 }).notNull(),
+    status: mysqlEnum('status', STUDY_STATUSES).notNull().default('draft'),
+    /** Day 0, a date in the lab's time zone. */
+    startDate: date('start_date', { mode: 'string' }).notNull(),
+    responsibleId: ref('responsible_id').references(() => users.id),
+    samplesPerCell: int('samples_per_cell').notNull().default(1),
+    containerDescription: varchar('container_description', { length: 200 }).notNull().default(''),
+    /** Grams of product one container holds (for the "product needed" figure). */
+    fillGrams: double('fill_grams'),
+    notes: text('notes'),
+    startedAt: datetime('started_at', { mode: 'date', fsp: 3 }),
+    startedBy: ref('started_by'),
+    cancelledReason: text('cancelled_reason'),
+    createdBy: ref('created_by').references(() => users.id),
+    createdAt: createdAt(),
+    updatedAt: datetime('updated_at', { mode: 'date', fsp: 3 })
+      .notNull()
+      .default(sql`CURRENT_TIMESTAMP(3)`)
+      .$onUpdate(() => new Date()),
+  },
+  (t) => [index('studies_lab_status_idx').on(t.labId, t.status)],
+);
+
+export const studyBatches = mysqlTable(
+  'study_batches',
+  {
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    batchId: ref('batch_id').notNull().references(() => batches.id),
+    labId: ref('lab_id').notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.studyId, t.batchId] })],
+);
+
+export const studyConditions = mysqlTable(
+  'study_conditions',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull(),
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    conditionId: ref('condition_id').notNull().references(() => storageConditions.id),
+    role: mysqlEnum('role', CONDITION_ROLES).notNull(),
+    position: int('position').notNull(),
+    /** The planned checkpoint offsets; dated checkpoints are made from them at start. */
+    offsets: json('offsets').$type<PlanOffset[]>().notNull(),
+    template: varchar('template', { length: 32 }),
+    endedOn: date('ended_on', { mode: 'string' }),
+    endedReason: text('ended_reason'),
+  },
+  (t) => [uniqueIndex('study_conditions_uq').on(t.studyId, t.conditionId)],
+);
+
+export const studyAttributes = mysqlTable(
+  'study_attributes',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull(),
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    attributeId: ref('attribute_id').notNull().references(() => attributes.id),
+    position: int('position').notNull(),
+    criterion: json('criterion').$type<Criterion>().notNull(),
+  },
+  (t) => [uniqueIndex('study_attributes_uq').on(t.studyId, t.attributeId)],
+);
+
+export const samples = mysqlTable(
+  'samples',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull().references(() => labs.id),
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    batchId: ref('batch_id').notNull().references(() => batches.id),
+    studyConditionId: ref('study_condition_id').notNull().references(() => studyConditions.id),
+    /** Short code printed on the label, unique in the lab. */
+    code: varchar('code', { length: 12 }).notNull(),
+    replicate: int('replicate').notNull().default(1),
+    labelOrder: int('label_order').notNull(),
+  },
+  (t) => [uniqueIndex('samples_lab_code_uq').on(t.labId, t.code), index('samples_study_idx').on(t.studyId, t.studyConditionId)],
+);
+
+export const checkpoints = mysqlTable(
+  'checkpoints',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull().references(() => labs.id),
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    studyConditionId: ref('study_condition_id').notNull().references(() => studyConditions.id),
+    offsetUnit: mysqlEnum('offset_unit', ['day', 'week', 'month', 'cycle']).notNull(),
+    offsetN: int('offset_n').notNull(),
+    label: varchar('label', { length: 40 }).notNull(),
+    dueDate: date('due_date', { mode: 'string' }).notNull(),
+    windowBefore: int('window_before').notNull(),
+    windowAfter: int('window_after').notNull(),
+    /** open (upcoming, due or overdue by date), done, or missed. */
+    status: mysqlEnum('status', CHECKPOINT_STATUSES).notNull().default('open'),
+    missedReason: text('missed_reason'),
+    closedAt: datetime('closed_at', { mode: 'date', fsp: 3 }),
+    closedBy: ref('closed_by'),
+    amendmentId: ref('amendment_id'),
+  },
+  (t) => [
+    index('checkpoints_lab_due_idx').on(t.labId, t.status, t.dueDate),
+    index('checkpoints_study_idx').on(t.studyId, t.studyConditionId, t.dueDate),
+  ],
+);
+
+export const amendments = mysqlTable(
+  'amendments',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull().references(() => labs.id),
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    kind: mysqlEnum('kind', AMENDMENT_KINDS).notNull(),
+    reason: text('reason').notNull(),
+    details: json('details'),
+    createdBy: ref('created_by').references(() => users.id),
+    createdAt: createdAt(),
+  },
+  (t) => [index('amendments_study_idx').on(t.studyId)],
+);
+
+/** One result for one sample, checkpoint and attribute. Corrections keep history (issue: recording). */
+export const observations = mysqlTable(
+  'observations',
+  {
+    id: pk(),
+    labId: ref('lab_id').notNull().references(() => labs.id),
+    studyId: ref('study_id').notNull(),
+    sampleId: ref('sample_id').notNull().references(() => samples.id),
+    checkpointId: ref('checkpoint_id').notNull().references(() => checkpoints.id),
+    studyAttributeId: ref('study_attribute_id').notNull().references(() => studyAttributes.id),
+    valueNum: double('value_num'),
+    valueText: varchar('value_text', { length: 2000 }),
+    valueBool: boolean('value_bool'),
+    method: json('method'),
+    verdict: mysqlEnum('verdict', VERDICTS).notNull(),
+    notDoneReason: text('not_done_reason'),
+    recordedBy: ref('recorded_by').notNull(),
+    recordedAt: createdAt('recorded_at'),
+    version: int('version').notNull().default(1),
+    voided: boolean('voided').notNull().default(false),
+  },
+  (t) => [
+    uniqueIndex('observations_cell_uq').on(t.sampleId, t.checkpointId, t.studyAttributeId),
+    index('observations_checkpoint_idx').on(t.checkpointId),
+    index('observations_study_idx').on(t.labId, t.studyId),
+  ],
+);
