@@ -86,7 +86,8 @@ export const CONDITION_ROLE_LABELS: Record<ConditionRole, string> = {
   stress: 'Stress test',
 };
 
-export const CHECKPOINT_STATUSES = ['open', 'done', 'missed'] as const;
+/** open (upcoming, due or overdue by date), done, missed (window passed, with a reason), cancelled (condition ended early or study cancelled). */
+export const CHECKPOINT_STATUSES = ['open', 'done', 'missed', 'cancelled'] as const;
 export type CheckpointStatus = (typeof CHECKPOINT_STATUSES)[number];
 
 export const AMENDMENT_KINDS = ['add_checkpoint', 'end_condition', 'cancel', 'other'] as const;

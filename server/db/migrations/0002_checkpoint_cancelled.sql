@@ -1,0 +1,1 @@
+ALTER TABLE `checkpoints` MODIFY COLUMN `status` enum('open','done','missed','cancelled') NOT NULL DEFAULT 'open';
