@@ -7,6 +7,7 @@ import { sql } from 'drizzle-orm';
 import type { Db } from '../db/client';
 import { labs, users } from '../db/schema';
 import { audit } from '../services/audit';
+import { ensureStarterAttributes } from '../services/labs';
 import { DEMO_LABS, DEMO_PASSWORD } from './people';
 
 let cachedHash: string | undefined;
@@ -37,6 +38,7 @@ export async function seedDemo(db: Db): Promise<SeededLab[]> {
           .$returningId();
         members[p.email] = id;
       }
+      await ensureStarterAttributes(tx, labId);
       await audit(tx, { labId, userId: null, action: 'create', entity: 'lab', entityId: labId, newValue: { name: lab.name, demo: true } });
       out.push({ id: labId, name: lab.name, members });
     }
