@@ -7,7 +7,8 @@
 import mysql from 'mysql2/promise';
 import type { ConnectionTarget } from './mariadb';
 
-export const APPEND_ONLY_TABLES = ['audit_log'];
+/** History tables: rows are added, never changed or removed. */
+export const APPEND_ONLY_TABLES = ['audit_log', 'observation_revisions'];
 
 export async function grantAppAccount(admin: ConnectionTarget, appUser: string): Promise<void> {
   const conn = await mysql.createConnection({ ...admin, multipleStatements: false });

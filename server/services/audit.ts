@@ -7,6 +7,7 @@ export interface AuditEntry {
   action: 'create' | 'update' | 'delete' | 'void' | 'sign' | 'sign_in' | 'lockout' | 'amend' | 'import';
   entity: string;
   entityId?: string | number | null;
+  studyId?: number | null;
   oldValue?: unknown;
   newValue?: unknown;
   reason?: string | null;
@@ -20,6 +21,7 @@ export async function audit(db: DbOrTx, e: AuditEntry): Promise<void> {
     action: e.action,
     entity: e.entity,
     entityId: e.entityId == null ? null : String(e.entityId),
+    studyId: e.studyId ?? (e.entity === 'study' && e.entityId != null ? Number(e.entityId) : null),
     oldValue: e.oldValue ?? null,
     newValue: e.newValue ?? null,
     reason: e.reason ?? null,

@@ -3,6 +3,9 @@
  * committed migrations, the app account's grants, and the demo labs.
  */
 import { randomBytes } from 'node:crypto';
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import mysql from 'mysql2/promise';
 import supertest from 'supertest';
 import { inject } from 'vitest';
@@ -80,6 +83,7 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}): Promise<T
     log: createLogger(true),
     sessionSecret: 'test-secret-that-is-long-enough',
     serveClient: false,
+    uploadsDir: mkdtempSync(join(tmpdir(), 'kw-uploads-')),
     ...overrides,
   });
   return {

@@ -51,6 +51,8 @@ export const users = mysqlTable(
     failedSignIns: int('failed_sign_ins').notNull().default(0),
     lockedUntil: datetime('locked_until', { mode: 'date', fsp: 3 }),
     lastSignInAt: datetime('last_sign_in_at', { mode: 'date', fsp: 3 }),
+    /** The member's own choice: the morning reminder digest by e-mail. */
+    remindersEnabled: boolean('reminders_enabled').notNull().default(true),
     createdAt: createdAt(),
   },
   (t) => [uniqueIndex('users_email_uq').on(t.email), index('users_lab_idx').on(t.labId)],
@@ -70,11 +72,13 @@ export const auditLog = mysqlTable(
     action: varchar('action', { length: 32 }).notNull(),
     entity: varchar('entity', { length: 48 }).notNull(),
     entityId: varchar('entity_id', { length: 64 }),
+    /** The study a row concerns, when it concerns one (for the audit trail's study filter). */
+    studyId: ref('study_id'),
     oldValue: json('old_value'),
     newValue: json('new_value'),
     reason: text('reason'),
   },
-  (t) => [index('audit_lab_at_idx').on(t.labId, t.at), index('audit_entity_idx').on(t.labId, t.entity, t.entityId)],
+  (t) => [index('audit_lab_at_idx').on(t.labId, t.at), index('audit_entity_idx').on(t.labId, t.entity, t.entityId), index('audit_study_idx').on(t.labId, t.studyId, t.at)],
 );
 
 /** express-mysql-session's table, declared here so migrations own it. */

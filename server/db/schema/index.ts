@@ -3,3 +3,5 @@ export * from './core';
 export * from './formulas';
 export * from './storage';
 export * from './studies';
+export * from './mail';
+export * from './records';

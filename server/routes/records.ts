@@ -1,0 +1,202 @@
+import { join } from 'node:path';
+import { and, desc, eq, gte, lt, sql } from 'drizzle-orm';
+import { Router, type RequestHandler } from 'express';
+import multer from 'multer';
+import { addDays } from '../../shared/compute/schedule';
+import { auditQuery, correctionInput, recordInput, voidInput, type AuditRow } from '../../shared/schemas/records';
+import { requireMember, requireRole } from '../auth/guards';
+import { member } from '../auth/session-user';
+import type { Db } from '../db/client';
+import { auditLog, checkpoints, photos, samples, users } from '../db/schema';
+import { HttpError, idParam, notFound, parse } from '../http/errors';
+import { planImport, runImport } from '../services/import';
+import { checkImages, PHOTO_LIMITS, photosFor, savePhotos } from '../services/photos';
+import { checkpointOpen, correctObservation, observationHistory, recordObservations, recordSheet, voidObservation, type Recorder } from '../services/records';
+import { todayIn } from '../services/studies';
+
+const recorder = (u: Express.User): Recorder => ({ id: u.id, labId: u.labId, role: u.role });
+
+/** Multer errors as our 4xx answers: 413 for too large or too many, 400 for a broken upload. */
+function upload(field: string, opts: { maxFiles: number; fileSize: number }): RequestHandler {
+  const m = multer({
+    storage: multer.memoryStorage(),
+    limits: { fileSize: opts.fileSize, files: opts.maxFiles, fields: 10, parts: opts.maxFiles + 10, fieldSize: 64 * 1024 },
+  }).array(field, opts.maxFiles);
+  return (req, res, next) => {
+    m(req, res, (err: unknown) => {
+      if (!err) return next();
+      if (err instanceof multer.MulterError) {
+        const tooBig = err.code === 'LIMIT_FILE_SIZE';
+        const tooMany = err.code === 'LIMIT_FILE_COUNT' || err.code === 'LIMIT_UNEXPECTED_FILE' || err.code === 'LIMIT_PART_COUNT';
+        if (tooBig) return next(new HttpError(413, 'too_large', `Each file may be at most ${opts.fileSize / 1024 / 1024} MB`, { [field]: 'File too large' }));
+        if (tooMany) return next(new HttpError(413, 'too_large', `At most ${opts.maxFiles} file(s) per upload, in the "${field}" field`, { [field]: 'Too many files' }));
+        return next(new HttpError(400, 'bad_request', `Upload refused: ${err.message}`, { [field]: err.message }));
+      }
+      // busboy: truncated or malformed multipart body
+      next(new HttpError(400, 'bad_request', 'The upload was cut short or is malformed; try again', { [field]: 'Incomplete upload' }));
+    });
+  };
+}
+
+/** Mounted at /api: recording, corrections, photos, bulk import and the audit trail. */
+export function recordRoutes(db: Db, uploadsDir: string): Router {
+  const r = Router();
+  const photoDir = join(uploadsDir, 'photos');
+
+  r.get('/samples/:code/checkpoints/:checkpointId', requireMember, async (req, res) => {
+    const me = member(req);
+    res.json({ sheet: await recordSheet(db, me.labId, String(req.params.code), idParam(req.params.checkpointId), todayIn(me.lab.timeZone)) });
+  });
+
+  r.put('/samples/:code/checkpoints/:checkpointId/observations', requireMember, async (req, res) => {
+    const me = member(req);
+    const input = parse(recordInput, req.body);
+    const code = String(req.params.code);
+    const checkpointId = idParam(req.params.checkpointId);
+    const today = todayIn(me.lab.timeZone);
+    await recordObservations(db, recorder(me), code, checkpointId, input.entries, today, input.allowEarly ?? false);
+    res.json({ sheet: await recordSheet(db, me.labId, code, checkpointId, today) });
+  });
+
+  r.post('/observations/:id/corrections', requireMember, async (req, res) => {
+    const me = member(req);
+    const id = idParam(req.params.id);
+    const input = parse(correctionInput, req.body);
+    await correctObservation(db, recorder(me), id, input);
+    res.json({ history: await observationHistory(db, me.labId, id) });
+  });
+
+  r.post('/observations/:id/void', requireMember, async (req, res) => {
+    const me = member(req);
+    const id = idParam(req.params.id);
+    const { reason } = parse(voidInput, req.body);
+    await voidObservation(db, recorder(me), id, reason);
+    res.json({ history: await observationHistory(db, me.labId, id) });
+  });
+
+  r.get('/observations/:id/history', requireMember, async (req, res) => {
+    const me = member(req);
+    res.json({ history: await observationHistory(db, me.labId, idParam(req.params.id)) });
+  });
+
+  // ---------------------------------------------------------------- photos
+  r.post(
+    '/samples/:code/checkpoints/:checkpointId/photos',
+    requireMember,
+    upload('photos', { maxFiles: PHOTO_LIMITS.files, fileSize: PHOTO_LIMITS.fileSize }),
+    async (req, res) => {
+      const me = member(req);
+      const checkpointId = idParam(req.params.checkpointId);
+      const code = String(req.params.code).toUpperCase();
+      const [sample] = await db.select().from(samples).where(and(eq(samples.labId, me.labId), eq(samples.code, code)));
+      if (!sample) throw notFound('No such sample in your lab');
+      const [cp] = await db
+        .select({ cp: checkpoints, status: sql<string>`(SELECT status FROM studies WHERE id = ${checkpoints.studyId})` })
+        .from(checkpoints)
+        .where(and(eq(checkpoints.labId, me.labId), eq(checkpoints.id, checkpointId), eq(checkpoints.studyConditionId, sample.studyConditionId)));
+      if (!cp) throw notFound('This sample has no such checkpoint');
+      const closed = checkpointOpen({ status: cp.status }, cp.cp, todayIn(me.lab.timeZone), me.role !== 'technician');
+      if (closed) throw new HttpError(409, 'conflict', closed);
+      const files = (req.files as Express.Multer.File[] | undefined) ?? [];
+      if (!files.length) throw new HttpError(400, 'validation', 'Choose at least one photo', { photos: 'No photo chosen' });
+      const checked = await checkImages(files);
+      await savePhotos(db, photoDir, me, { studyId: sample.studyId, sampleId: sample.id, checkpointId, sampleCode: sample.code, checkpointLabel: cp.cp.label }, checked);
+      res.status(201).json({ photos: await photosFor(db, me.labId, { sampleId: sample.id, checkpointId }) });
+    },
+  );
+
+  const servePhoto = (thumb: boolean): RequestHandler => async (req, res) => {
+    const me = member(req);
+    const [p] = await db.select().from(photos).where(and(eq(photos.labId, me.labId), eq(photos.id, idParam(req.params.id))));
+    if (!p) throw notFound('No such photo in your lab');
+    res.set({
+      'Content-Type': thumb ? 'image/webp' : p.mime,
+      'Content-Disposition': 'inline',
+      'Content-Security-Policy': "default-src 'none'; sandbox",
+      'Cache-Control': 'private, max-age=86400',
+    });
+    res.sendFile(join(photoDir, thumb ? p.thumbName : p.storedName), { headers: { 'Content-Type': thumb ? 'image/webp' : p.mime } });
+  };
+  r.get('/photos/:id', requireMember, servePhoto(false));
+  r.get('/photos/:id/thumb', requireMember, servePhoto(true));
+
+  r.get('/studies/:id/photos', requireMember, async (req, res) => {
+    const me = member(req);
+    const studyId = idParam(req.params.id);
+    const list = await photosFor(db, me.labId, { studyId });
+    res.json({ photos: list });
+  });
+
+  // ---------------------------------------------------------------- bulk import
+  const importUpload = upload('file', { maxFiles: 1, fileSize: 5 * 1024 * 1024 });
+  const csvOf = (req: Express.Request) => {
+    const f = (req.files as Express.Multer.File[] | undefined)?.[0];
+    if (!f) throw new HttpError(400, 'validation', 'Choose a CSV file', { file: 'No file chosen' });
+    if (f.buffer.subarray(0, 65536).includes(0)) throw new HttpError(415, 'unsupported_type', 'This is not a text (CSV) file', { file: 'Not a CSV file' });
+    return f.buffer.toString('utf8');
+  };
+  r.post('/studies/:id/import/preview', requireRole('formulator'), importUpload, async (req, res) => {
+    const me = member(req);
+    const plan = await planImport(db, me.labId, idParam(req.params.id), me.lab.timeZone, csvOf(req));
+    res.json({ rows: plan.rows, errorCount: plan.errorCount });
+  });
+  r.post('/studies/:id/import', requireRole('formulator'), importUpload, async (req, res) => {
+    const me = member(req);
+    const plan = await planImport(db, me.labId, idParam(req.params.id), me.lab.timeZone, csvOf(req));
+    const imported = await runImport(db, recorder(me), plan, todayIn(me.lab.timeZone));
+    res.status(201).json({ imported });
+  });
+
+  // ---------------------------------------------------------------- audit trail (owners)
+  const auditRows = async (labId: number, q: ReturnType<typeof auditQuery.parse>, limit: number, offset: number) => {
+    const conds = [eq(auditLog.labId, labId)];
+    if (q.studyId) conds.push(eq(auditLog.studyId, q.studyId));
+    if (q.userId) conds.push(eq(auditLog.userId, q.userId));
+    if (q.from) conds.push(gte(auditLog.at, new Date(`${q.from}T00:00:00Z`)));
+    if (q.to) conds.push(lt(auditLog.at, new Date(`${addDays(q.to, 1)}T00:00:00Z`)));
+    const rows = await db
+      .select({ a: auditLog, user: users.name })
+      .from(auditLog)
+      .leftJoin(users, eq(users.id, auditLog.userId))
+      .where(and(...conds))
+      .orderBy(desc(auditLog.at), desc(auditLog.id))
+      .limit(limit)
+      .offset(offset);
+    return rows.map(({ a, user }): AuditRow => ({
+      id: a.id,
+      at: a.at.toISOString(),
+      user,
+      action: a.action,
+      entity: a.entity,
+      entityId: a.entityId,
+      oldValue: a.oldValue,
+      newValue: a.newValue,
+      reason: a.reason,
+    }));
+  };
+
+  r.get('/audit', requireRole('owner'), async (req, res) => {
+    const me = member(req);
+    const q = parse(auditQuery, req.query, 'query');
+    const pageSize = 100;
+    const rows = await auditRows(me.labId, q, pageSize + 1, (q.page - 1) * pageSize);
+    res.json({ rows: rows.slice(0, pageSize), page: q.page, more: rows.length > pageSize });
+  });
+
+  r.get('/audit.csv', requireRole('owner'), async (req, res) => {
+    const me = member(req);
+    const q = parse(auditQuery, req.query, 'query');
+    const rows = await auditRows(me.labId, q, 100_000, 0);
+    const cell = (v: unknown) => {
+      const s = v == null ? '' : typeof v === 'string' ? v : JSON.stringify(v);
+      // Quote every cell; neutralise spreadsheet formulas.
+      return `"${(/^[=+\-@]/.test(s) ? `'${s}` : s).replace(/"/g, '""')}"`;
+    };
+    res.set({ 'Content-Type': 'text/csv; charset=utf-8', 'Content-Disposition': 'attachment; filename="audit-trail.csv"' });
+    res.write('time_utc,who,action,entity,entity_id,old_value,new_value,reason\r\n');
+    for (const r of rows) res.write([r.at, r.user, r.action, r.entity, r.entityId, r.oldValue, r.newValue, r.reason].map(cell).join(',') + '\r\n');
+    res.end();
+  });
+
+  return r;
+}

@@ -1,0 +1,165 @@
+/**
+ * Recording at the bench: what the Record screen reads and sends, corrections,
+ * voids, photos, bulk import and the audit trail. Shared by client and server.
+ */
+import { z } from 'zod';
+import type { Criterion, Evaluation } from '../compute/criteria';
+import type { StoredVerdict } from '../domain';
+import type { Attribute, StudyCheckpoint } from './studies';
+
+const reason = z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000, 'At most 2000 characters');
+
+/** A value as typed: number (measured, graded), level (compared), boolean (pass/fail), text (note). */
+export const observedValue = z.union([
+  z.number().finite('Must be a number'),
+  z.boolean(),
+  z.string().trim().min(1, 'Enter a value').max(2000, 'At most 2000 characters'),
+]);
+
+export const methodValues = z.record(z.string().max(32), z.union([z.string().max(60), z.number().finite()])).refine(
+  (m) => Object.keys(m).length <= 8,
+  'At most 8 method details',
+);
+
+export const recordEntry = z
+  .strictObject({
+    studyAttributeId: z.number().int().positive(),
+    value: observedValue.nullable().optional(),
+    method: methodValues.optional(),
+    /** Set instead of a value when the check could not be done. */
+    notDoneReason: reason.optional(),
+  })
+  .superRefine((e, ctx) => {
+    const hasValue = e.value !== undefined && e.value !== null;
+    if (!hasValue && !e.notDoneReason) ctx.addIssue({ code: 'custom', path: ['value'], message: 'Enter a value, or mark it not done with a reason' });
+    if (hasValue && e.notDoneReason) ctx.addIssue({ code: 'custom', path: ['notDoneReason'], message: 'Either a value or a reason, not both' });
+  });
+export type RecordEntry = z.infer<typeof recordEntry>;
+
+export const recordInput = z.strictObject({
+  entries: z.array(recordEntry).min(1, 'Nothing to save').max(60),
+  /** Lets a formulator record before the window opens. */
+  allowEarly: z.boolean().optional(),
+});
+export type RecordInput = z.infer<typeof recordInput>;
+
+export const correctionInput = z.strictObject({
+  value: observedValue,
+  method: methodValues.optional(),
+  reason,
+});
+export type CorrectionInput = z.infer<typeof correctionInput>;
+
+export const voidInput = z.strictObject({ reason });
+
+export const auditQuery = z.strictObject({
+  studyId: z.coerce.number().int().positive().optional(),
+  userId: z.coerce.number().int().positive().optional(),
+  from: z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use YYYY-MM-DD').optional(),
+  to: z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use YYYY-MM-DD').optional(),
+  page: z.coerce.number().int().min(1).max(100_000).default(1),
+});
+
+// ---------------------------------------------------------------- responses
+
+export interface ObservationView {
+  id: number;
+  value: number | string | boolean | null;
+  method: Record<string, string | number> | null;
+  verdict: StoredVerdict;
+  message: string;
+  notDoneReason: string | null;
+  recordedBy: string;
+  recordedAt: string;
+  version: number;
+  voided: boolean;
+}
+
+export interface ReferenceValue {
+  value: number | string | boolean;
+  label: string;
+  sampleCode?: string;
+}
+
+export interface RecordAttribute {
+  studyAttributeId: number;
+  attribute: Attribute;
+  criterion: Criterion;
+  /** Day-0 value of this sample (or of its batch's day-0 reading). */
+  baseline: ReferenceValue | null;
+  previous: ReferenceValue | null;
+  /** For compared attributes: the control sample's latest value. */
+  control: ReferenceValue | null;
+  current: ObservationView | null;
+}
+
+export interface PhotoView {
+  id: number;
+  url: string;
+  thumbUrl: string;
+  width: number;
+  height: number;
+  caption: string | null;
+  uploadedBy: string;
+  uploadedAt: string;
+  sampleCode: string;
+  checkpointLabel: string;
+}
+
+export interface RecordSheet {
+  sample: {
+    id: number;
+    code: string;
+    replicate: number;
+    study: { id: number; title: string; status: string };
+    product: string;
+    variant: { code: string; name: string };
+    lotCode: string;
+    condition: { id: number; name: string; location: string };
+  };
+  checkpoint: StudyCheckpoint;
+  /** Whether recording is open now, and why not when it is not. */
+  open: boolean;
+  closedReason: string | null;
+  locked: boolean;
+  attributes: RecordAttribute[];
+  /** The checkpoint's samples in label order, for "save and next". */
+  siblings: { code: string; complete: boolean }[];
+  photos: PhotoView[];
+}
+
+export interface RevisionView {
+  version: number;
+  value: number | string | boolean | null;
+  method: Record<string, string | number> | null;
+  verdict: StoredVerdict;
+  recordedBy: string;
+  recordedAt: string;
+  change: 'correction' | 'void' | null;
+  changedBy: string | null;
+  changedAt: string | null;
+  reason: string | null;
+}
+
+export interface ImportPreviewRow {
+  line: number;
+  sampleCode: string;
+  attributeCode: string;
+  value: string;
+  readAt: string;
+  checkpointLabel: string | null;
+  evaluation: Evaluation | null;
+  error: string | null;
+}
+
+export interface AuditRow {
+  id: number;
+  at: string;
+  user: string | null;
+  action: string;
+  entity: string;
+  entityId: string | null;
+  oldValue: unknown;
+  newValue: unknown;
+  reason: string | null;
+}
