@@ -29,6 +29,8 @@ import {
 } from '../db/schema';
 import { conflict, idParam, notFound, parse } from '../http/errors';
 import { audit } from '../services/audit';
+import { analyzeStudy } from '../services/analysis';
+import { labs } from '../db/schema';
 import {
   amendStudy,
   bench,
@@ -252,6 +254,13 @@ export function studyRoutes(db: Db): Router {
     const me = member(req);
     const q = parse(benchQuery, req.query, 'query');
     res.json(await bench(db, me.labId, q.today ?? todayIn(me.lab.timeZone), q.days));
+  });
+
+  r.get('/studies/:id/analysis', formulator, async (req, res) => {
+    const me = member(req);
+    const [lab] = await db.select({ q10: labs.q10 }).from(labs).where(eq(labs.id, me.labId));
+    const q = parse(z.strictObject({ q10: z.coerce.number().gt(0, 'Q10 must be more than 0').max(10, 'Q10 above 10 is not plausible').optional() }), req.query, 'query');
+    res.json({ analysis: await analyzeStudy(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone), q.q10 ?? lab.q10) });
   });
 
   // ---------------------------------------------------------------- labels and samples
