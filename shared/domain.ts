@@ -96,3 +96,21 @@ export type AmendmentKind = (typeof AMENDMENT_KINDS)[number];
 /** Stored verdict of an observation: the evaluation's verdict, or not done (with a reason). */
 export const VERDICTS = ['pass', 'fail', 'no_criterion', 'needs_baseline', 'not_done'] as const;
 export type StoredVerdict = (typeof VERDICTS)[number];
+
+export const DECISION_OUTCOMES = ['released', 'released_with_conditions', 'not_released', 'continue_testing'] as const;
+export type DecisionOutcome = (typeof DECISION_OUTCOMES)[number];
+export const DECISION_OUTCOME_LABELS: Record<DecisionOutcome, string> = {
+  released: 'Released',
+  released_with_conditions: 'Released with conditions',
+  not_released: 'Not released',
+  continue_testing: 'Continue testing',
+};
+/** What a signature means, recorded with it. */
+export const SIGNATURE_MEANINGS: Record<DecisionOutcome, string> = {
+  released: 'approved for release',
+  released_with_conditions: 'approved for release',
+  not_released: 'rejected',
+  continue_testing: 'returned for more testing',
+};
+/** Ready phrases for release conditions. */
+export const CONDITION_PHRASES = ['Protect from freezing.', 'Store below 25 °C.', 'Keep away from sunlight.'] as const;

@@ -35,6 +35,8 @@ export const labs = mysqlTable('labs', {
   q10: decimal('q10', { precision: 4, scale: 2, mode: 'number' }).notNull().default(2),
   reminderHour: int('reminder_hour').notNull().default(7),
   dateFormat: varchar('date_format', { length: 16 }).notNull().default('YYYY-MM-DD'),
+  /** When set, an owner may not sign a decision on a study they created or submitted. */
+  barSelfApproval: boolean('bar_self_approval').notNull().default(false),
   createdAt: createdAt(),
 });
 

@@ -5,3 +5,4 @@ export * from './storage';
 export * from './studies';
 export * from './mail';
 export * from './records';
+export * from './decisions';

@@ -1,0 +1,92 @@
+/** Submitting a study for review, the owner's signed decision, and superseding one. */
+import { z } from 'zod';
+import { DECISION_OUTCOMES, type DecisionOutcome } from '../domain';
+import { offset } from './studies';
+
+const months = (what: string) =>
+  z
+    .number({ message: `Give the ${what} in whole months` })
+    .int('Whole months only')
+    .min(1, `The ${what} must be at least 1 month`)
+    .max(120, `The ${what} cannot exceed 120 months`);
+
+export const submitInput = z.strictObject({
+  summary: z.string().trim().min(10, 'Write a short summary for the reviewer (at least 10 characters)').max(5000, 'At most 5000 characters'),
+  proposals: z
+    .array(
+      z.strictObject({
+        variantId: z.number().int().positive(),
+        shelfLifeMonths: months('shelf life').nullable(),
+        paoMonths: months('period after opening').nullable().optional(),
+      }),
+    )
+    .min(1, 'Propose a shelf life for each variant'),
+  /** Required when checkpoints are still open: why the study ends early. */
+  openCheckpointsReason: z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000).optional(),
+});
+export type SubmitInput = z.infer<typeof submitInput>;
+
+export const decisionInput = z
+  .strictObject({
+    variantId: z.number().int().positive(),
+    outcome: z.enum(DECISION_OUTCOMES),
+    conditionsText: z.string().trim().max(1000, 'At most 1000 characters').optional(),
+    shelfLifeMonths: months('shelf life').nullable().optional(),
+    paoMonths: months('period after opening').nullable().optional(),
+    comment: z.string().trim().max(5000, 'At most 5000 characters').optional(),
+    /** Continue testing: the checkpoints to add, per study condition. */
+    newCheckpoints: z.array(z.strictObject({ studyConditionId: z.number().int().positive(), offset })).max(40).optional(),
+    /** Signing asks for the owner's password again. */
+    password: z.string().min(1, 'Enter your password to sign').max(200),
+    supersedesId: z.number().int().positive().optional(),
+    supersedeReason: z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000).optional(),
+  })
+  .superRefine((d, ctx) => {
+    const releasing = d.outcome === 'released' || d.outcome === 'released_with_conditions';
+    if (releasing && d.shelfLifeMonths == null) ctx.addIssue({ code: 'custom', path: ['shelfLifeMonths'], message: 'A release needs a shelf life' });
+    if (d.outcome === 'released_with_conditions' && !d.conditionsText) ctx.addIssue({ code: 'custom', path: ['conditionsText'], message: 'Write the conditions of release' });
+    if (d.outcome === 'continue_testing' && !d.newCheckpoints?.length) ctx.addIssue({ code: 'custom', path: ['newCheckpoints'], message: 'Add at least one checkpoint to continue testing' });
+    if (d.supersedesId && !d.supersedeReason) ctx.addIssue({ code: 'custom', path: ['supersedeReason'], message: 'Say why this decision replaces the earlier one' });
+  });
+export type DecisionInput = z.infer<typeof decisionInput>;
+
+export interface DecisionView {
+  id: number;
+  variantId: number;
+  variant: string;
+  outcome: DecisionOutcome;
+  conditionsText: string | null;
+  shelfLifeMonths: number | null;
+  paoMonths: number | null;
+  labelRule: string | null;
+  labelText: string | null;
+  comment: string | null;
+  signerName: string;
+  signedAt: string;
+  meaning: string;
+  dataHash: string;
+  /** False when the study's data changed after signing. */
+  coversCurrentData: boolean;
+  supersedesId: number | null;
+  supersedeReason: string | null;
+  supersededById: number | null;
+}
+
+export interface SubmissionView {
+  id: number;
+  summary: string;
+  proposals: { variantId: number; shelfLifeMonths: number | null; paoMonths?: number | null }[];
+  openCheckpointsReason: string | null;
+  submittedBy: string;
+  submittedAt: string;
+}
+
+export interface ReviewQueueItem {
+  studyId: number;
+  title: string;
+  product: string;
+  submittedBy: string;
+  submittedAt: string;
+  variants: number;
+  decided: number;
+}

@@ -1,0 +1,189 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { eq, and } from 'drizzle-orm';
+import { auditLog, labs, users } from '../../server/db/schema';
+import { addDays, localDateInZone } from '../../shared/compute/schedule';
+import { createTestApp, DEMO, DEMO_PASSWORD, type Client, type TestApp } from '../helpers/app';
+import { makeCatalogue, planFor, type Catalogue } from '../helpers/fixtures';
+
+let t: TestApp;
+let owner: Client, formulator: Client, technician: Client, otherOwner: Client;
+let cat: Catalogue;
+
+beforeAll(async () => {
+  t = await createTestApp();
+  [owner, formulator, technician, otherOwner] = await Promise.all([
+    t.signIn(DEMO.owner),
+    t.signIn(DEMO.formulator),
+    t.signIn(DEMO.technician),
+    t.signIn(DEMO.otherOwner),
+  ]);
+  cat = await makeCatalogue(t.db, t.labs[0].id);
+});
+afterAll(async () => t?.close());
+
+/** A running study with day 0 recorded for every sample; later checkpoints still open. */
+async function runningStudy() {
+  const plan = planFor(cat, addDays(localDateInZone(new Date(), 'Europe/Berlin'), -3));
+  const id = (await formulator.post('/api/studies', plan)).body.study.id;
+  const study = (await formulator.post(`/api/studies/${id}/start`)).body.study;
+  for (const cp of study.checkpoints.filter((c: { label: string }) => c.label === 'Day 0')) {
+    for (const s of study.samples.filter((x: { studyConditionId: number }) => x.studyConditionId === cp.studyConditionId)) {
+      await technician.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, {
+        entries: study.attributes.map((a: { id: number; code: string }) => ({
+          studyAttributeId: a.id,
+          value: a.code === 'ph' ? 5.5 : a.code === 'separation' ? 0 : 'no_change',
+        })),
+      });
+    }
+  }
+  const variantIds = [...new Set(study.batches.map((b: { variant: { id: number } }) => b.variant.id))] as number[];
+  return { id, study, variantIds };
+}
+
+const proposals = (ids: number[]) => ids.map((variantId) => ({ variantId, shelfLifeMonths: 12, paoMonths: 6 }));
+const sign = (c: Client, studyId: number, body: object) => c.post(`/api/studies/${studyId}/decisions`, { password: DEMO_PASSWORD, ...body });
+
+describe('submitting for review', () => {
+  it('needs a reason while checkpoints are open, and locks the observations once in review', async () => {
+    const { id, variantIds } = await runningStudy();
+    const noReason = await formulator.post(`/api/studies/${id}/submit`, { summary: 'Both variants held for the first days.', proposals: proposals(variantIds) });
+    expect(noReason.status).toBe(422);
+    expect(noReason.body.error.fields).toHaveProperty('openCheckpointsReason');
+    const missingVariant = await formulator.post(`/api/studies/${id}/submit`, { summary: 'Both variants held.', proposals: proposals(variantIds.slice(0, 1)), openCheckpointsReason: 'Ending early' });
+    expect(missingVariant.status).toBe(400);
+    expect((await technician.post(`/api/studies/${id}/submit`, { summary: 'x'.repeat(20), proposals: proposals(variantIds) })).status).toBe(403);
+    const ok = await formulator.post(`/api/studies/${id}/submit`, {
+      summary: 'Both variants held for the first days.',
+      proposals: proposals(variantIds),
+      openCheckpointsReason: 'Formula change decided; ending early',
+    });
+    expect(ok.status).toBe(200);
+    expect(ok.body.review.submission.openCheckpointsReason).toBe('Formula change decided; ending early');
+    const queue = await owner.get('/api/reviews');
+    expect(queue.body.queue.map((q: { studyId: number }) => q.studyId)).toContain(id);
+    expect((await formulator.get('/api/reviews')).status).toBe(403);
+    expect((await otherOwner.get('/api/reviews')).body.queue).toEqual([]);
+  });
+});
+
+describe('signing decisions', () => {
+  it('only owners sign: a technician and a formulator get 403 and nothing is written', async () => {
+    const { id, variantIds } = await runningStudy();
+    await formulator.post(`/api/studies/${id}/submit`, { summary: 'Ready for a decision.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    const body = { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12 };
+    expect((await sign(technician, id, body)).status).toBe(403);
+    expect((await sign(formulator, id, body)).status).toBe(403);
+    expect((await owner.get(`/api/studies/${id}/review`)).body.review.decisions).toEqual([]);
+  });
+
+  it('a wrong password is refused, logged, and limited', async () => {
+    const { id, variantIds } = await runningStudy();
+    await formulator.post(`/api/studies/${id}/submit`, { summary: 'Ready for a decision.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    const wrong = await sign(otherOwner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12, password: 'nope' });
+    expect(wrong.status).toBe(404); // another lab: not found, before any password check
+    const res = await owner.post(`/api/studies/${id}/decisions`, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12, password: 'not-my-password' });
+    expect(res.status).toBe(403);
+    expect(res.body.error.fields).toHaveProperty('password');
+    const logged = await t.db.select().from(auditLog).where(and(eq(auditLog.action, 'sign_failed'), eq(auditLog.entityId, String(id))));
+    expect(logged).toHaveLength(1);
+    await t.db.update(users).set({ failedSignIns: 4 }).where(eq(users.email, DEMO.owner));
+    await owner.post(`/api/studies/${id}/decisions`, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12, password: 'still-wrong' });
+    const locked = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12 });
+    expect(locked.status).toBe(429);
+    await t.db.update(users).set({ failedSignIns: 0, lockedUntil: null }).where(eq(users.email, DEMO.owner));
+  });
+
+  it('refuses a shelf life of zero, negative or over 120 months, and superseding without a reason', async () => {
+    const { id, variantIds } = await runningStudy();
+    await formulator.post(`/api/studies/${id}/submit`, { summary: 'Ready for a decision.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    for (const months of [0, -3, 121, 2.5]) {
+      const res = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: months });
+      expect(res.status).toBe(400);
+      expect(res.body.error.fields).toHaveProperty('shelfLifeMonths');
+    }
+    const noReason = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12, supersedesId: 1 });
+    expect(noReason.status).toBe(400);
+    expect(noReason.body.error.fields).toHaveProperty('supersedeReason');
+  });
+
+  it('signs per variant: release with label dating, return the other for more testing; two signatures at once make one', async () => {
+    const { id, study, variantIds } = await runningStudy();
+    await formulator.post(`/api/studies/${id}/submit`, { summary: 'A looks good; B unsure.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    const body = { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 24, paoMonths: 12, comment: 'Good at every condition so far.' };
+    const [a, b] = await Promise.all([sign(owner, id, body), sign(owner, id, body)]);
+    expect([a.status, b.status].sort()).toEqual([201, 409]);
+    const review = (a.status === 201 ? a : b).body.review;
+    const d = review.decisions[0];
+    expect(d).toMatchObject({ outcome: 'released', shelfLifeMonths: 24, signerName: 'Maya Lindqvist', meaning: 'approved for release', labelRule: 'best_before', coversCurrentData: true });
+    expect(d.dataHash).toMatch(/^[0-9a-f]{64}$/);
+    // EU Regulation 1223/2009 Art. 19(1)(c): 30 months or less needs a best-before date.
+    expect(d.labelText).toMatch(/19\(1\)\(c\)/);
+
+    const cont = await sign(owner, id, {
+      variantId: variantIds[1],
+      outcome: 'continue_testing',
+      comment: 'Needs week 8 at 45 °C',
+      newCheckpoints: [{ studyConditionId: study.conditions[1].id, offset: { unit: 'week', n: 8 } }],
+    });
+    expect(cont.status).toBe(201);
+    const detail = (await formulator.get(`/api/studies/${id}`)).body.study;
+    expect(detail.status).toBe('running'); // reopened for the new checkpoint
+    expect(detail.checkpoints.some((c: { label: string }) => c.label === 'Week 8')).toBe(true);
+    expect((await owner.get('/api/reviews')).body.queue.map((q: { studyId: number }) => q.studyId)).not.toContain(id);
+    const signed = await t.db.select().from(auditLog).where(and(eq(auditLog.action, 'sign'), eq(auditLog.studyId, id)));
+    expect(signed).toHaveLength(2);
+  });
+
+  it('a decided study: supersede with a reason; a later data change marks the signature as not covering current data', async () => {
+    const { id, study, variantIds } = await runningStudy();
+    await formulator.post(`/api/studies/${id}/submit`, { summary: 'All good at every condition.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    for (const v of variantIds) { const r = await sign(owner, id, { variantId: v, outcome: "released", shelfLifeMonths: 36, paoMonths: 12 }); expect(r.status, JSON.stringify(r.body)).toBe(201); }
+    const decided = (await owner.get(`/api/studies/${id}/review`)).body.review;
+    expect((await formulator.get(`/api/studies/${id}`)).body.study.status).toBe('decided');
+    expect(decided.current[0].labelRule).toBe('period_after_opening'); // above 30 months
+
+    const again = await sign(owner, id, { variantId: variantIds[0], outcome: 'not_released' });
+    expect(again.status).toBe(409);
+    const sup = await sign(owner, id, {
+      variantId: variantIds[0],
+      outcome: 'released_with_conditions',
+      conditionsText: 'Protect from freezing.',
+      shelfLifeMonths: 24,
+      supersedesId: decided.current.find((d: { variantId: number }) => d.variantId === variantIds[0]).id,
+      supersedeReason: 'Freeze-thaw result came in after signing',
+    });
+    expect(sup.status, JSON.stringify(sup.body)).toBe(201);
+    const old = sup.body.review.decisions.find((d: { id: number }) => d.id === decided.current[0].id);
+    expect(old.supersededById).toBe(sup.body.decisionId);
+
+    // The owner corrects an observation after the decision: the signature no longer covers the data.
+    const sheet = (await owner.get(`/api/samples/${study.samples[0].code}/checkpoints/${study.checkpoints[0].id}`)).body.sheet;
+    const obsId = sheet.attributes[0].current.id;
+    expect((await owner.post(`/api/observations/${obsId}/corrections`, { value: 5.45, reason: 'Transcription error found' })).status).toBe(200);
+    const stale = (await owner.get(`/api/studies/${id}/review`)).body.review;
+    expect(stale.current.every((d: { coversCurrentData: boolean }) => !d.coversCurrentData)).toBe(true);
+    expect((await formulator.get(`/api/studies/${id}`)).body.study.status).toBe('in_review');
+  });
+
+  it('a lab can bar an owner from approving a study they wrote', async () => {
+    const { id, variantIds } = await runningStudy();
+    await owner.post(`/api/studies/${id}/submit`, { summary: 'Submitted by the owner.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    await t.db.update(labs).set({ barSelfApproval: true }).where(eq(labs.id, t.labs[0].id));
+    const res = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12 });
+    expect(res.status).toBe(403);
+    expect(res.body.error.message).toMatch(/author/);
+    await t.db.update(labs).set({ barSelfApproval: false }).where(eq(labs.id, t.labs[0].id));
+  });
+});
+
+describe('observations export', () => {
+  it('exports every observation in long format', async () => {
+    const { id } = await runningStudy();
+    const res = await technician.get(`/api/studies/${id}/observations.csv`);
+    expect(res.status).toBe(200);
+    const lines = res.text.trim().split('\r\n');
+    expect(lines[0]).toMatch(/^sample,variant,lot,condition,checkpoint,due_date,attribute,unit,value,verdict/);
+    expect(lines).toHaveLength(1 + 4 * 3); // 4 samples x 3 attributes at day 0
+    expect((await otherOwner.get(`/api/studies/${id}/observations.csv`)).status).toBe(404);
+  });
+});
