@@ -45,7 +45,7 @@ export default defineConfig({
           name: 'api',
           include: ['tests/api/**/*.test.ts'],
           environment: 'node',
-          globalSetup: ['tests/setup/database.ts'],
+          globalSetup: ['tests/setup/database.ts', 'tests/setup/tools.ts'],
           testTimeout: 30_000,
           hookTimeout: 60_000,
         },

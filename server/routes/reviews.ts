@@ -9,10 +9,20 @@ import { idParam, notFound, parse } from '../http/errors';
 import type { Logger } from '../log';
 import { decide, reviewOf, reviewQueue, submitStudy } from '../services/reviews';
 import { valueOf } from '../services/records';
+import { studyReportPdf } from '../services/report';
+import { todayIn } from '../services/studies';
+import { join } from 'node:path';
 
 /** Mounted at /api: submitting for review, the owner's queue and signed decisions, the observations export. */
-export function reviewRoutes(db: Db, log: Logger): Router {
+export function reviewRoutes(db: Db, log: Logger, uploadsDir: string): Router {
   const r = Router();
+
+  r.get('/studies/:id/report.pdf', requireRole('technician'), async (req, res) => {
+    const me = member(req);
+    const pdf = await studyReportPdf(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone), join(uploadsDir, 'photos'));
+    res.set({ 'Content-Type': 'application/pdf', 'Content-Disposition': `inline; filename="stability-report-${req.params.id}.pdf"` });
+    res.send(pdf);
+  });
 
   r.post('/studies/:id/submit', requireRole('formulator'), async (req, res) => {
     const me = member(req);

@@ -53,7 +53,7 @@ export interface StudyAnalysis {
   studyId: number;
   q10: number;
   variants: { id: number; code: string; name: string; lots: string[] }[];
-  conditions: { id: number; name: string; kind: string; role: string; setpointC: number | null; location: string; mkt: { mktC: number; readings: number; from: string; to: string } | null }[];
+  conditions: { id: number; name: string; kind: string; role: string; setpointC: number | null; location: string; mkt: { mktC: number; minC: number; maxC: number; meanC: number; readings: number; from: string; to: string } | null }[];
   attributes: { id: number; code: string; name: string; kind: string; unit: string | null; decimals: number; criterion: Criterion; scale: { grade: number; label: string }[] | null }[];
   series: Series[];
   /** Absolute limits per variant and attribute (relative criteria resolved from the variant's mean day-0 value). */
@@ -93,6 +93,9 @@ async function mktFor(db: Db, labId: number, conditionId: number, from: string, 
     .select({
       n: sql<number>`count(*)`,
       mkt: sql<number | null>`-10000 / LN(AVG(EXP(-10000 / (${chamberReadings.tempC} + 273.15)))) - 273.15`,
+      min: sql<number | null>`MIN(${chamberReadings.tempC})`,
+      max: sql<number | null>`MAX(${chamberReadings.tempC})`,
+      mean: sql<number | null>`AVG(${chamberReadings.tempC})`,
     })
     .from(chamberReadings)
     .innerJoin(chamberLogs, eq(chamberLogs.id, chamberReadings.logId))
@@ -105,7 +108,10 @@ async function mktFor(db: Db, labId: number, conditionId: number, from: string, 
       ),
     );
   const n = Number(row?.n ?? 0);
-  return n > 0 && row.mkt != null ? { mktC: Math.round(Number(row.mkt) * 100) / 100, readings: n, from, to } : null;
+  const r2 = (x: unknown) => Math.round(Number(x) * 100) / 100;
+  return n > 0 && row.mkt != null
+    ? { mktC: r2(row.mkt), minC: r2(row.min), maxC: r2(row.max), meanC: r2(row.mean), readings: n, from, to }
+    : null;
 }
 
 export async function analyzeStudy(db: Db, labId: number, studyId: number, today: string, q10: number): Promise<StudyAnalysis> {

@@ -1,0 +1,288 @@
+/**
+ * The stability report (PDF) for the product file: generated on the server with
+ * pdfmake, charts rendered by ECharts as SVG on the server, the shipped Inter
+ * font, black-and-white friendly (verdicts in words, not colors).
+ */
+import { readFile } from 'node:fs/promises';
+import { createRequire } from 'node:module';
+import { join } from 'node:path';
+import * as echarts from 'echarts';
+import { and, asc, eq, inArray } from 'drizzle-orm';
+import { COMPARED_LEVEL_LABELS, type ComparedLevel, type Criterion } from '../../shared/compute/criteria';
+import { CONDITION_ROLE_LABELS, DECISION_OUTCOME_LABELS, PRODUCT_TYPE_LABELS, STUDY_STATUS_LABELS, type ProductType } from '../../shared/domain';
+import type { Db } from '../db/client';
+import { auditLog, batches, labs, photos } from '../db/schema';
+import { analyzeStudy } from './analysis';
+import { reviewOf } from './reviews';
+import { studyDetail } from './studies';
+
+const require = createRequire(import.meta.url);
+// pdfmake's server build is CommonJS.
+const pdfmake = require('pdfmake') as {
+  setFonts(f: object): void;
+  setUrlAccessPolicy(cb: (url: string) => boolean): void;
+  setLocalAccessPolicy(cb: (path: string) => boolean): void;
+  createPdf(doc: object): { getBuffer(): Promise<Buffer> };
+};
+const INTER = join(require.resolve('@fontsource/inter/package.json'), '..', 'files');
+pdfmake.setFonts({
+  Inter: {
+    normal: join(INTER, 'inter-latin-400-normal.woff'),
+    bold: join(INTER, 'inter-latin-600-normal.woff'),
+    italics: join(INTER, 'inter-latin-400-normal.woff'),
+    bolditalics: join(INTER, 'inter-latin-600-normal.woff'),
+  },
+});
+// Nothing is fetched from outside; only the shipped font files are read from disk.
+pdfmake.setUrlAccessPolicy(() => false);
+pdfmake.setLocalAccessPolicy((p) => p.startsWith(INTER));
+
+export function criterionText(c: Criterion, unit: string | null): string {
+  const u = unit ? ` ${unit}` : '';
+  switch (c.kind) {
+    case 'range':
+      return c.min != null && c.max != null ? `${c.min} to ${c.max}${u}` : c.min != null ? `at least ${c.min}${u}` : `at most ${c.max}${u}`;
+    case 'change_abs':
+      return `within ±${c.max}${u} of day 0`;
+    case 'change_pct':
+      return `within ±${c.max} % of day 0`;
+    case 'worst_grade':
+      return `grade ${c.grade} at worst`;
+    case 'worst_compared':
+      return `${COMPARED_LEVEL_LABELS[c.level].toLowerCase()} at worst vs control`;
+    case 'must_pass':
+      return 'must pass';
+    default:
+      return 'recorded only';
+  }
+}
+
+const fmtValue = (v: unknown) =>
+  v == null ? '—' : typeof v === 'boolean' ? (v ? 'pass' : 'fail') : typeof v === 'string' ? (COMPARED_LEVEL_LABELS[v as ComparedLevel] ?? v) : String(v);
+const VERDICT: Record<string, string> = { pass: 'pass', fail: 'FAIL', no_criterion: '', needs_baseline: 'no day 0', not_done: 'not done' };
+
+/** One measured attribute over time, every series a line with its own dash pattern (black-and-white friendly). */
+function chartSvg(title: string, unit: string | null, series: { name: string; points: [number, number][] }[], limit?: { lower?: number | null; upper?: number | null }): string {
+  const chart = echarts.init(null, null, { renderer: 'svg', ssr: true, width: 720, height: 300 });
+  const dashes = ['solid', 'dashed', 'dotted', [8, 3, 2, 3], [2, 2]] as const;
+  const symbols = ['circle', 'rect', 'triangle', 'diamond', 'emptyCircle'];
+  chart.setOption({
+    animation: false,
+    backgroundColor: '#ffffff',
+    textStyle: { fontFamily: 'Inter, sans-serif' },
+    title: { text: title, left: 0, textStyle: { fontSize: 13, fontWeight: 600, color: '#111' } },
+    legend: { top: 0, right: 0, textStyle: { fontSize: 10, color: '#222' } },
+    grid: { left: 56, right: 16, top: 40, bottom: 36 },
+    xAxis: { type: 'value', name: 'months', nameLocation: 'middle', nameGap: 24, axisLine: { lineStyle: { color: '#444' } }, splitLine: { show: false } },
+    yAxis: { type: 'value', name: unit ?? '', scale: true, axisLine: { show: true, lineStyle: { color: '#444' } }, splitLine: { lineStyle: { color: '#e5e5e5' } } },
+    series: series.map((s, i) => ({
+      name: s.name,
+      type: 'line',
+      data: s.points,
+      symbol: symbols[i % symbols.length],
+      symbolSize: 6,
+      lineStyle: { type: dashes[i % dashes.length], width: 1.5, color: ['#111', '#444', '#666', '#222', '#888'][i % 5] },
+      itemStyle: { color: ['#111', '#444', '#666', '#222', '#888'][i % 5] },
+      markLine:
+        i === 0 && limit
+          ? {
+              symbol: 'none',
+              label: { formatter: '{b}', fontSize: 9 },
+              lineStyle: { type: 'dashed', color: '#000' },
+              data: [
+                ...(limit.lower != null ? [{ name: `limit ${+limit.lower.toFixed(2)}`, yAxis: limit.lower }] : []),
+                ...(limit.upper != null ? [{ name: `limit ${+limit.upper.toFixed(2)}`, yAxis: limit.upper }] : []),
+              ],
+            }
+          : undefined,
+    })),
+  });
+  const svg = chart.renderToSVGString();
+  chart.dispose();
+  return svg;
+}
+
+export async function studyReportPdf(db: Db, labId: number, studyId: number, today: string, photosDir: string): Promise<Buffer> {
+  const [lab] = await db.select().from(labs).where(eq(labs.id, labId));
+  const d = await studyDetail(db, labId, studyId, today);
+  const a = await analyzeStudy(db, labId, studyId, today, lab.q10);
+  const review = await reviewOf(db, labId, studyId);
+  const batchRows = await db.select().from(batches).where(inArray(batches.id, d.batches.map((b) => b.id)));
+  const auditRows = await db
+    .select({ action: auditLog.action, entity: auditLog.entity })
+    .from(auditLog)
+    .where(and(eq(auditLog.labId, labId), eq(auditLog.studyId, studyId)));
+  const photoRows = await db.select().from(photos).where(and(eq(photos.labId, labId), eq(photos.studyId, studyId))).orderBy(asc(photos.id)).limit(12);
+
+  const variantName = (id: number) => {
+    const v = a.variants.find((x) => x.id === id);
+    return v ? `${v.code} · ${v.name}` : String(id);
+  };
+  const condName = (id: number) => a.conditions.find((c) => c.id === id)?.name ?? String(id);
+  const h = (text: string) => ({ text, style: 'h2', margin: [0, 14, 0, 6] });
+  const table = (widths: (string | number)[], head: string[], body: unknown[][]) => ({
+    table: { headerRows: 1, widths, body: [head.map((x) => ({ text: x, style: 'th' })), ...body] },
+    layout: { hLineWidth: (i: number) => (i <= 1 ? 0.8 : 0.3), vLineWidth: () => 0, hLineColor: () => '#555', paddingTop: () => 3, paddingBottom: () => 3 },
+    fontSize: 8.5,
+  });
+
+  // Formulas as of the batches.
+  const formulas = batchRows.map((b) => {
+    const snap = (b.formulaSnapshot as { phase?: string; tradeName?: string; inciName?: string; ingredient?: string; percent: number }[]) ?? [];
+    return [
+      { text: `Lot ${b.lotCode} (${variantName(b.variantId)}), made ${b.madeOn}, ${b.sizeGrams} g, ${b.packaging}`, bold: true, margin: [0, 6, 0, 2] },
+      snap.length
+        ? table(['auto', '*', '*', 'auto'], ['Phase', 'Ingredient', 'INCI', '% w/w'], snap.map((l) => [l.phase ?? '', l.tradeName ?? l.ingredient ?? '', l.inciName ?? '', { text: Number(l.percent).toFixed(2), alignment: 'right' }]))
+        : { text: 'No formula snapshot recorded for this lot.', italics: true },
+    ];
+  });
+
+  // Charts per measured attribute: one line per variant and condition (mean of samples).
+  const charts: unknown[] = [];
+  for (const attr of a.attributes.filter((x) => x.kind === 'measured')) {
+    const lines: { name: string; points: [number, number][] }[] = [];
+    for (const v of a.variants) {
+      for (const c of a.conditions) {
+        const pts = a.series
+          .filter((s) => s.variantId === v.id && s.studyConditionId === c.id && s.studyAttributeId === attr.id)
+          .flatMap((s) => s.points.filter((p) => typeof p.value === 'number').map((p) => [p.months, p.value as number] as [number, number]));
+        if (!pts.length) continue;
+        const byT = new Map<number, number[]>();
+        for (const [t, y] of pts) byT.set(t, [...(byT.get(t) ?? []), y]);
+        lines.push({ name: `${v.code} ${c.name}`, points: [...byT.entries()].sort((x, y) => x[0] - y[0]).map(([t, ys]) => [Math.round(t * 100) / 100, ys.reduce((s, y) => s + y, 0) / ys.length]) });
+      }
+    }
+    if (!lines.length) continue;
+    const limit = a.limits.find((l) => l.studyAttributeId === attr.id)?.limit;
+    charts.push({ svg: chartSvg(`${attr.name}${attr.unit ? ` (${attr.unit})` : ''}`, attr.unit, lines.slice(0, 8), limit ?? undefined), width: 500, margin: [0, 4, 0, 8] });
+  }
+
+  // Every observation, in long format.
+  const obsBody: unknown[][] = [];
+  for (const s of a.series) {
+    const attr = a.attributes.find((x) => x.id === s.studyAttributeId)!;
+    for (const p of s.points) {
+      obsBody.push([p.sampleCode, variantName(s.variantId).split(' ·')[0], s.lotCode, condName(s.studyConditionId), p.label, attr.name, `${fmtValue(p.value)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`, { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail' }]);
+    }
+  }
+
+  const photoBlocks = [];
+  for (const p of photoRows) {
+    try {
+      const img = await readFile(join(photosDir, p.storedName));
+      const sample = d.samples.find((s) => s.id === p.sampleId);
+      const cp = d.checkpoints.find((c) => c.id === p.checkpointId);
+      photoBlocks.push({ stack: [{ image: `data:${p.mime};base64,${img.toString('base64')}`, fit: [150, 110] }, { text: `${sample?.code ?? ''} · ${cp?.label ?? ''}${p.caption ? ` · ${p.caption}` : ''}`, fontSize: 7.5 }], width: 160, margin: [0, 0, 8, 8] });
+    } catch {
+      /* a missing file is left out of the report */
+    }
+  }
+  const photoRowsOut = [];
+  for (let i = 0; i < photoBlocks.length; i += 3) photoRowsOut.push({ columns: photoBlocks.slice(i, i + 3), columnGap: 6 });
+
+  const auditSummary = Object.entries(
+    auditRows.reduce<Record<string, number>>((acc, r) => {
+      const k = `${r.action} ${r.entity}`;
+      acc[k] = (acc[k] ?? 0) + 1;
+      return acc;
+    }, {}),
+  );
+
+  const doc = {
+    info: { title: `Stability report: ${d.title}`, author: lab.name, creator: 'Keepwell' },
+    pageSize: 'A4',
+    pageMargins: [48, 64, 48, 56],
+    defaultStyle: { font: 'Inter', fontSize: 9.5, color: '#111', lineHeight: 1.2 },
+    styles: {
+      h1: { fontSize: 18, bold: true, margin: [0, 0, 0, 4] },
+      h2: { fontSize: 12.5, bold: true },
+      th: { bold: true, fontSize: 8.5 },
+      muted: { color: '#444', fontSize: 8.5 },
+    },
+    header: (page: number) =>
+      page === 1
+        ? null
+        : { columns: [{ text: `Stability report · ${d.title}`, style: 'muted' }, { text: `${lab.name} · ${today}`, style: 'muted', alignment: 'right' }], margin: [48, 28, 48, 0] },
+    footer: (page: number, pages: number) => ({
+      columns: [{ text: 'Generated by Keepwell. A suggested shelf life supports, and does not replace, a qualified safety assessor.', style: 'muted', fontSize: 7 }, { text: `Page ${page} of ${pages}`, style: 'muted', alignment: 'right' }],
+      margin: [48, 16, 48, 0],
+    }),
+    content: [
+      { text: lab.name, style: 'muted' },
+      { text: 'Stability report', style: 'h1' },
+      { text: d.title, fontSize: 13, margin: [0, 0, 0, 10] },
+      table(['auto', '*'], ['', ''], [
+        ['Product', `${d.product.name} (${PRODUCT_TYPE_LABELS[d.product.type as ProductType] ?? d.product.type})`],
+        ['Study status', STUDY_STATUS_LABELS[d.status]],
+        ['Day 0', d.startDate],
+        ['Responsible', d.responsible?.name ?? '—'],
+        ['Samples', `${d.samples.length} (${d.containerDescription || 'containers'})`],
+        ['Report date', today],
+      ]),
+      h('Variants and formulas (as made in each lot)'),
+      ...formulas.flat(),
+      h('Storage conditions and chamber records'),
+      table(['*', 'auto', 'auto', 'auto', 'auto', 'auto'], ['Condition', 'Role', 'Location', 'Min–max °C', 'Mean °C', 'MKT °C'], a.conditions.map((c) => [
+        c.name,
+        CONDITION_ROLE_LABELS[c.role as keyof typeof CONDITION_ROLE_LABELS] ?? c.role,
+        c.location || '—',
+        c.mkt ? `${c.mkt.minC} – ${c.mkt.maxC}` : 'no log',
+        c.mkt ? String(c.mkt.meanC) : '—',
+        c.mkt ? String(c.mkt.mktC) : '—',
+      ])),
+      { text: 'MKT: mean kinetic temperature, ΔH/R = 10 000 K (Haynes 1971, as used in USP <1160>), over the chamber log readings since day 0.', style: 'muted', margin: [0, 3, 0, 0] },
+      h('Schedule'),
+      table(['*', 'auto', 'auto', 'auto'], ['Condition', 'Checkpoint', 'Due', 'State'], d.checkpoints.map((c) => [condName(c.studyConditionId), c.label, c.dueDate, c.state + (c.missedReason ? ` (${c.missedReason})` : '')])),
+      h('Attributes and acceptance criteria'),
+      table(['*', 'auto'], ['Attribute', 'Accepted when'], a.attributes.map((x) => [x.name, criterionText(x.criterion, x.unit)])),
+      { text: 'Default criteria are common practice with no published source; the lab sets its own.', style: 'muted', margin: [0, 3, 0, 0] },
+      h('Charts'),
+      ...(charts.length ? charts : [{ text: 'No measured values yet.', italics: true }]),
+      h('Suggested shelf life and reasons'),
+      ...a.suggestions.flatMap((s) => [
+        { text: `${variantName(s.variantId)}: ${s.result.months != null ? `${s.result.months} months` : 'no figure yet'} (${s.result.basis.replace('_', ' ')})`, bold: true, margin: [0, 6, 0, 2] },
+        s.result.reasons.length
+          ? table(['auto', 'auto', 'auto', 'auto', '*'], ['Attribute', 'Condition', 'Method', 'Months', 'Rule and data'], s.result.reasons.map((r) => [r.attribute, r.condition, r.method, r.figureMonths != null ? r.figureMonths.toFixed(1) : '—', `${r.rule} ${r.message} (${r.dataPoints} results)`]))
+          : { text: 'No reasons yet.', italics: true },
+        ...(s.result.gates.length ? [{ text: `Gates: ${s.result.gates.map((g) => g.message).join(' ')}`, margin: [0, 3, 0, 0] }] : []),
+        { text: s.result.confidenceNote, style: 'muted', margin: [0, 3, 0, 0] },
+      ]),
+      { text: a.suggestions[0]?.result.caution ?? '', italics: true, margin: [0, 6, 0, 0] },
+      h('Every observation'),
+      obsBody.length ? table(['auto', 'auto', 'auto', '*', 'auto', '*', 'auto', 'auto'], ['Sample', 'Var.', 'Lot', 'Condition', 'Checkpoint', 'Attribute', 'Value', 'Verdict'], obsBody) : { text: 'No observations recorded.', italics: true },
+      ...(photoRowsOut.length ? [h('Photos at key checkpoints'), ...photoRowsOut] : []),
+      h('Decision and signatures'),
+      ...(review.decisions.length
+        ? review.decisions.map((dec) => ({
+            stack: [
+              { text: `${dec.variant}: ${DECISION_OUTCOME_LABELS[dec.outcome]}${dec.supersededById ? ' (superseded)' : ''}`, bold: true },
+              { text: [dec.shelfLifeMonths ? `Shelf life ${dec.shelfLifeMonths} months. ` : '', dec.paoMonths ? `Period after opening ${dec.paoMonths} months. ` : '', dec.conditionsText ?? '', dec.comment ? ` ${dec.comment}` : ''].join('') },
+              ...(dec.labelText ? [{ text: dec.labelText, style: 'muted' }] : []),
+              ...(dec.supersedeReason ? [{ text: `Supersedes decision ${dec.supersedesId}: ${dec.supersedeReason}`, style: 'muted' }] : []),
+              {
+                table: {
+                  widths: ['auto', '*'],
+                  body: [
+                    ['Signed by', dec.signerName],
+                    ['Signed at (UTC)', dec.signedAt.replace('T', ' ').slice(0, 19)],
+                    ['Meaning', dec.meaning],
+                    ['Data covered (SHA-256)', { text: dec.dataHash, fontSize: 7 }],
+                    ['Covers the current data', dec.coversCurrentData ? 'yes' : 'NO: the data changed after signing'],
+                  ],
+                },
+                layout: 'lightHorizontalLines',
+                fontSize: 8.5,
+                margin: [0, 4, 0, 0],
+              },
+            ],
+            margin: [0, 4, 0, 10],
+            unbreakable: true,
+          }))
+        : [{ text: 'No decision has been signed yet.', italics: true }]),
+      h('Audit summary'),
+      auditSummary.length ? table(['*', 'auto'], ['Event', 'Count'], auditSummary.map(([k, n]) => [k.replace('_', ' '), String(n)])) : { text: 'No audit entries.', italics: true },
+      { text: 'Labelling rules (EU Regulation 1223/2009 Art. 19(1)(c)) and safety substantiation (US MoCRA 2022) are stated as applied; the lab’s regulatory adviser and safety assessor have the last word.', style: 'muted', margin: [0, 12, 0, 0] },
+    ],
+  };
+  return pdfmake.createPdf(doc).getBuffer();
+}
