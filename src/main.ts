@@ -4,6 +4,8 @@ import '@fontsource/inter/400.css';
 import '@fontsource/inter/500.css';
 import '@fontsource/inter/600.css';
 import 'element-plus/theme-chalk/el-message.css';
+import 'element-plus/theme-chalk/el-overlay.css';
+import 'element-plus/theme-chalk/el-message-box.css';
 import '@/styles/main.css';
 import App from '@/App.vue';
 import { router } from '@/router';

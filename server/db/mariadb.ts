@@ -122,7 +122,9 @@ export async function launchMariaDb(opts: LaunchOptions): Promise<LaunchedMariaD
   const pidFile = join(baseDir, 'mariadb.pid');
   const logFile = join(baseDir, 'mariadb.err');
   const credFile = join(baseDir, 'app-account.json');
-  mkdirSync(baseDir, { recursive: true });
+  // A private temp dir: servers sharing /tmp can collide on temporary table names.
+  const tmpDir = join(baseDir, 'tmp');
+  mkdirSync(tmpDir, { recursive: true });
 
   // A server left running by a killed earlier start still holds the data dir: stop it first.
   if (existsSync(pidFile)) {
@@ -145,6 +147,7 @@ export async function launchMariaDb(opts: LaunchOptions): Promise<LaunchedMariaD
       '--auth-root-authentication-method=normal',
       '--skip-test-db',
       '--skip-name-resolve',
+      `--tmpdir=${tmpDir}`,
     ], { maxBuffer: 16 * 1024 * 1024 });
   }
 
@@ -159,6 +162,7 @@ export async function launchMariaDb(opts: LaunchOptions): Promise<LaunchedMariaD
     '--skip-name-resolve',
     '--skip-log-bin',
     `--log-error=${logFile}`,
+    `--tmpdir=${tmpDir}`,
     '--character-set-server=utf8mb4',
     '--collation-server=utf8mb4_unicode_ci',
     '--default-time-zone=+00:00',
