@@ -22,6 +22,8 @@ import { memberRoutes } from './routes/members';
 import { formulaRoutes } from './routes/formulas';
 import { storageRoutes } from './routes/storage';
 import { studyRoutes } from './routes/studies';
+import { recordRoutes } from './routes/records';
+import { reviewRoutes } from './routes/reviews';
 import { accountRoutes } from './routes/account';
 
 export const SESSION_COOKIE = 'kw.sid';
@@ -37,6 +39,8 @@ export interface AppDeps {
   signInIpLimit?: number;
   signInIpWindowMs?: number;
   serveClient?: boolean;
+  /** Where photos are stored (outside the web root); defaults to DATA_DIR/uploads. */
+  uploadsDir?: string;
 }
 
 export function createApp(deps: AppDeps) {
@@ -118,7 +122,10 @@ export function createApp(deps: AppDeps) {
   api.use(formulaRoutes(db));
   api.use(storageRoutes(db));
   api.use(studyRoutes(db));
-  api.use(accountRoutes(db));
+  const uploadsDir = deps.uploadsDir ?? join(config.DATA_DIR, 'uploads');
+  api.use(recordRoutes(db, uploadsDir));
+  api.use(reviewRoutes(db, log, uploadsDir));
+  api.use(accountRoutes({ db, config, log }));
   api.use(apiNotFound);
   app.use('/api', api);
 

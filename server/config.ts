@@ -14,9 +14,32 @@ const schema = z.object({
   PUBLIC_URL: z.string().url().optional(),
   TRUST_PROXY: z.coerce.number().int().min(0).max(10).default(0),
   LOAD_DEMO: z.enum(['auto', 'never']).default('auto'),
+  /**
+   * Outgoing e-mail. Without SMTP_HOST the app starts a local fake SMTP service
+   * that keeps every message in MariaDB (the development Outbox page shows them).
+   */
+  SMTP_HOST: z.string().min(1).optional(),
+  SMTP_PORT: z.coerce.number().int().min(1).max(65535).optional(),
+  SMTP_USER: z.string().min(1).optional(),
+  SMTP_PASSWORD: z.string().optional(),
+  /** 'true' for implicit TLS (usually port 465); otherwise STARTTLS is used when the server offers it. */
+  SMTP_SECURE: z.enum(['true', 'false']).default('false'),
+  /** The sender, e.g. `Keepwell <keepwell@yourlab.com>`. */
+  MAIL_FROM: z.string().min(3).max(200).default('Keepwell <keepwell@localhost>'),
+  /** Run the reminder job inside the app process ('false' when `npm run jobs` runs it elsewhere). */
+  JOBS_IN_APP: z.enum(['true', 'false']).default('true'),
 });
 
-export type Config = z.infer<typeof schema> & { secureCookies: boolean };
+/** Where mail goes: a real SMTP service, or null for the local fake one. */
+export interface SmtpSettings {
+  host: string;
+  port: number;
+  secure: boolean;
+  user?: string;
+  password?: string;
+}
+
+export type Config = z.infer<typeof schema> & { secureCookies: boolean; smtp: SmtpSettings | null };
 
 export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   const parsed = schema.safeParse(env);
@@ -25,5 +48,12 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     throw new Error(`Invalid settings in the environment:\n${lines.join('\n')}`);
   }
   const c = parsed.data;
-  return { ...c, secureCookies: c.PUBLIC_URL?.startsWith('https://') ?? false };
+  const secure = c.SMTP_SECURE === 'true';
+  const smtp: SmtpSettings | null = c.SMTP_HOST
+    ? { host: c.SMTP_HOST, port: c.SMTP_PORT ?? (secure ? 465 : 587), secure, user: c.SMTP_USER, password: c.SMTP_PASSWORD }
+    : null;
+  if (!smtp && (c.SMTP_PORT || c.SMTP_USER || c.SMTP_PASSWORD)) {
+    throw new Error('Invalid settings in the environment:\n  SMTP_HOST: required when SMTP_PORT, SMTP_USER or SMTP_PASSWORD is set');
+  }
+  return { ...c, secureCookies: c.PUBLIC_URL?.startsWith('https://') ?? false, smtp };
 }

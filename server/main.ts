@@ -1,5 +1,6 @@
 /** `npm start`: database, demo lab, API and built client in one process. */
 import { performance } from 'node:perf_hooks';
+import { join } from 'node:path';
 import type { Server } from 'node:http';
 import { createApp } from './app';
 import { openDatabase, sessionSecret } from './boot';
@@ -7,6 +8,8 @@ import { loadConfig } from './config';
 import { DEMO_LABS, DEMO_PASSWORD } from './demo/people';
 import { databaseIsEmpty, seedDemo } from './demo/seed';
 import { createLogger } from './log';
+import { mailerFor, outboxAvailable } from './mail/mailer';
+import { startReminderJob, type ReminderJob } from '../jobs/reminders';
 
 const t0 = performance.now();
 const config = loadConfig();
@@ -16,9 +19,13 @@ const database = await openDatabase(config, log);
 const { db, pool } = database;
 
 if (config.LOAD_DEMO === 'auto' && (await databaseIsEmpty(db))) {
-  await seedDemo(db);
+  await seedDemo(db, { content: 'full', uploadsDir: join(config.DATA_DIR, 'uploads') });
   log.info('Loaded the demo labs (invented data).');
 }
+
+// E-mail: the SMTP service from the settings, or a local fake one that keeps messages in MariaDB.
+const mailer = mailerFor({ db, config, log });
+const fakeSmtp = await mailer.start();
 
 const { app, close: closeApp } = createApp({ db, pool, config, log, sessionSecret: sessionSecret(config) });
 
@@ -39,6 +46,17 @@ if (config.LOAD_DEMO === 'auto') {
   console.log(`Demo sign-ins (password for all: ${DEMO_PASSWORD}):`);
   for (const lab of DEMO_LABS) for (const p of lab.people) console.log(`  ${p.email.padEnd(30)} ${p.role.padEnd(11)} ${lab.name}`);
 }
+if (fakeSmtp) {
+  console.log(`E-mail: no SMTP settings, so messages go to a local fake SMTP service (${fakeSmtp.host}:${fakeSmtp.port}) and are not delivered.`);
+  if (outboxAvailable(config)) console.log(`  Read them on the Outbox page (owners): http://${config.HOST}:${port}/lab/outbox`);
+  else log.warn('NODE_ENV=production without SMTP settings: e-mail (invitations, password resets, reminders) is not delivered. Set SMTP_HOST.');
+} else if (config.smtp) {
+  console.log(`E-mail: through ${config.smtp.host}:${config.smtp.port} as ${config.MAIL_FROM}`);
+}
+
+// The morning reminder job, in this process unless it runs alone (`npm run jobs`).
+let reminderJob: ReminderJob | null = null;
+if (config.JOBS_IN_APP === 'true') reminderJob = startReminderJob({ db, mailer, log, config });
 console.log('Press Ctrl-C to stop.\n');
 
 let stopping = false;
@@ -52,6 +70,8 @@ async function shutdown(signal: string) {
     server.closeIdleConnections();
   });
   clearTimeout(force);
+  await reminderJob?.stop();
+  await mailer.close();
   await closeApp();
   await database.close();
   log.info('stopped');

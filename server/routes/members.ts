@@ -1,6 +1,7 @@
 import { and, asc, eq, sql } from 'drizzle-orm';
 import { Router } from 'express';
 import { memberRoleInput, type Member } from '../../shared/schemas/auth';
+import { endSessionsOf } from '../auth/end-sessions';
 import { requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db, DbOrTx } from '../db/client';
@@ -70,6 +71,55 @@ export function memberRoutes(db: Db): Router {
         newValue: { role: input.role },
       });
       return { ...before, role: input.role };
+    });
+    res.json({ member: toMember(updated) });
+  });
+
+  /** Disables a member: they cannot sign in, and their open sessions end at once. */
+  r.post('/:id/disable', async (req, res) => {
+    const me = member(req);
+    const id = idParam(req.params.id);
+    if (id === me.id) {
+      // Still 404 for another lab's id: look it up first.
+      await findMember(db, me.labId, id);
+      throw conflict('You cannot disable your own account: ask another owner', { active: 'You cannot disable yourself' });
+    }
+    const updated = await db.transaction(async (tx) => {
+      const before = await findMember(tx, me.labId, id, true);
+      if (!before.active) return before;
+      if (before.role === 'owner') {
+        const [{ owners }] = await tx
+          .select({ owners: sql<number>`count(*)` })
+          .from(users)
+          .where(and(eq(users.labId, me.labId), eq(users.role, 'owner'), eq(users.active, true)))
+          .for('update');
+        if (Number(owners) <= 1) throw conflict('A lab needs at least one active owner', { active: 'The last owner cannot be disabled' });
+      }
+      await tx.update(users).set({ active: false }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      const ended = await endSessionsOf(tx, id);
+      await audit(tx, {
+        labId: me.labId,
+        userId: me.id,
+        action: 'update',
+        entity: 'user',
+        entityId: id,
+        oldValue: { active: true },
+        newValue: { active: false, sessionsEnded: ended },
+      });
+      return { ...before, active: false };
+    });
+    res.json({ member: toMember(updated) });
+  });
+
+  r.post('/:id/enable', async (req, res) => {
+    const me = member(req);
+    const id = idParam(req.params.id);
+    const updated = await db.transaction(async (tx) => {
+      const before = await findMember(tx, me.labId, id, true);
+      if (before.active) return before;
+      await tx.update(users).set({ active: true, failedSignIns: 0, lockedUntil: null }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      await audit(tx, { labId: me.labId, userId: me.id, action: 'update', entity: 'user', entityId: id, oldValue: { active: false }, newValue: { active: true } });
+      return { ...before, active: true };
     });
     res.json({ member: toMember(updated) });
   });

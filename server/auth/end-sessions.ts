@@ -1,0 +1,14 @@
+import { sql } from 'drizzle-orm';
+import type { DbOrTx } from '../db/client';
+
+/**
+ * Ends every session of a member at once: express-mysql-session keeps the
+ * session as JSON in `sessions.data`, with passport's `"passport":{"user":ID}`.
+ * (The session deserializer also refuses inactive members, on any instance.)
+ */
+export async function endSessionsOf(db: DbOrTx, userId: number): Promise<number> {
+  const [res] = (await db.execute(
+    sql`DELETE FROM sessions WHERE JSON_VALUE(data, '$.passport.user') = ${String(userId)}`,
+  )) as unknown as [{ affectedRows: number }];
+  return res?.affectedRows ?? 0;
+}
