@@ -1,0 +1,187 @@
+/**
+ * Storage-condition presets offered on the create form, and the short safety cautions shown
+ * beside conditions that can hurt someone. Pure data; no I/O.
+ *
+ * ICH values: ICH Q1A(R2) (2003), section 2.1.7.1 "General case" table:
+ *   long term     25 °C ± 2 °C / 60 % RH ± 5 % RH  or  30 °C ± 2 °C / 65 % RH ± 5 % RH
+ *   intermediate  30 °C ± 2 °C / 65 % RH ± 5 % RH
+ *   accelerated   40 °C ± 2 °C / 75 % RH ± 5 % RH
+ * The other presets are common practice in cosmetic labs, with no published source.
+ */
+import type { ConditionInput } from './schemas/storage';
+
+export interface StoragePreset {
+  key: PresetKey;
+  /** Shown in the preset picker. */
+  label: string;
+  /** 'ich' = ICH Q1A(R2) 2.1.7.1; 'common' = common practice, no published source. */
+  source: 'ich' | 'common';
+  /** A sentence naming the source, shown under the picker. */
+  sourceNote: string;
+  /** What the form is filled with (name and preset included; location is left to the lab). */
+  input: ConditionInput;
+}
+
+export const PRESET_KEYS = [
+  'fridge-4',
+  'ich-25-60',
+  'ich-30-65',
+  'ich-40-75',
+  'oven-45',
+  'oven-50',
+  'freeze-thaw',
+  'window-daylight',
+  'centrifuge-3000',
+] as const;
+export type PresetKey = (typeof PRESET_KEYS)[number];
+
+const ICH = 'ICH Q1A(R2), section 2.1.7.1 (general case)';
+const COMMON = 'Common practice in cosmetic labs; no published source.';
+
+export const STORAGE_PRESETS: readonly StoragePreset[] = [
+  {
+    key: 'fridge-4',
+    label: '4 °C control (refrigerator)',
+    source: 'common',
+    sourceNote: `${COMMON} The usual control against which odor and color are compared.`,
+    input: { kind: 'constant', name: '4 °C control', preset: '4 °C control (refrigerator)', setpointC: 4, toleranceC: 2, isControl: true },
+  },
+  {
+    key: 'ich-25-60',
+    label: '25 °C / 60 % RH (ICH long term)',
+    source: 'ich',
+    sourceNote: `${ICH}: long term 25 °C ± 2 °C / 60 % RH ± 5 % RH.`,
+    input: {
+      kind: 'constant',
+      name: '25 °C / 60 % RH',
+      preset: 'ICH Q1A(R2) long term 25 °C / 60 % RH',
+      setpointC: 25,
+      rhPercent: 60,
+      toleranceC: 2,
+      toleranceRh: 5,
+    },
+  },
+  {
+    key: 'ich-30-65',
+    label: '30 °C / 65 % RH (ICH intermediate, or long term)',
+    source: 'ich',
+    sourceNote: `${ICH}: intermediate 30 °C ± 2 °C / 65 % RH ± 5 % RH; also the alternative long-term condition.`,
+    input: {
+      kind: 'constant',
+      name: '30 °C / 65 % RH',
+      preset: 'ICH Q1A(R2) intermediate 30 °C / 65 % RH',
+      setpointC: 30,
+      rhPercent: 65,
+      toleranceC: 2,
+      toleranceRh: 5,
+    },
+  },
+  {
+    key: 'ich-40-75',
+    label: '40 °C / 75 % RH (ICH accelerated)',
+    source: 'ich',
+    sourceNote: `${ICH}: accelerated 40 °C ± 2 °C / 75 % RH ± 5 % RH.`,
+    input: {
+      kind: 'constant',
+      name: '40 °C / 75 % RH',
+      preset: 'ICH Q1A(R2) accelerated 40 °C / 75 % RH',
+      setpointC: 40,
+      rhPercent: 75,
+      toleranceC: 2,
+      toleranceRh: 5,
+    },
+  },
+  {
+    key: 'oven-45',
+    label: '45 °C oven',
+    source: 'common',
+    sourceNote: `${COMMON} A usual accelerated condition for cosmetics.`,
+    input: { kind: 'constant', name: '45 °C oven', preset: '45 °C (common practice)', setpointC: 45, toleranceC: 2 },
+  },
+  {
+    key: 'oven-50',
+    label: '50 °C oven',
+    source: 'common',
+    sourceNote: COMMON,
+    input: { kind: 'constant', name: '50 °C oven', preset: '50 °C (common practice)', setpointC: 50, toleranceC: 2 },
+  },
+  {
+    key: 'freeze-thaw',
+    label: 'Freeze-thaw −10 °C / 25 °C, 24 h each',
+    source: 'common',
+    sourceNote: `${COMMON} Usually 3 to 5 cycles.`,
+    input: {
+      kind: 'cycling',
+      name: 'Freeze-thaw −10 / 25 °C',
+      preset: 'Freeze-thaw −10 °C / 25 °C 24 h (common practice)',
+      lowC: -10,
+      highC: 25,
+      hoursLow: 24,
+      hoursHigh: 24,
+    },
+  },
+  {
+    key: 'window-daylight',
+    label: 'Window daylight',
+    source: 'common',
+    sourceNote: `${COMMON} Samples in their pack on a sunny windowsill.`,
+    input: { kind: 'light', name: 'Window daylight', preset: 'Window daylight (common practice)', lightSource: 'daylight' },
+  },
+  {
+    key: 'centrifuge-3000',
+    label: 'Centrifuge 3000 rpm, 30 min',
+    source: 'common',
+    sourceNote: `${COMMON} Enter your rotor's radius: the force in × g depends on it.`,
+    input: {
+      kind: 'mechanical',
+      name: 'Centrifuge 3000 rpm 30 min',
+      preset: 'Centrifuge 3000 rpm 30 min (common practice)',
+      rpm: 3000,
+      minutes: 30,
+      radiusCm: 10,
+    },
+  },
+];
+
+export function presetByKey(key: string): StoragePreset | undefined {
+  return STORAGE_PRESETS.find((p) => p.key === key);
+}
+
+/** Ovens at or above this temperature get the hot-surface caution, °C. */
+export const HOT_CAUTION_C = 40;
+
+export interface Caution {
+  key: 'hot' | 'cold' | 'uv' | 'centrifuge';
+  text: string;
+}
+
+const LOCAL_RULES = 'Follow your lab\'s safety rules and local regulations.';
+
+/** Short safety cautions for a condition (hot ovens, freeze-thaw and freezers, UV, centrifuges). */
+export function conditionCautions(c: {
+  kind: string;
+  setpointC?: number | null;
+  lowC?: number | null;
+  highC?: number | null;
+  lightSource?: string | null;
+}): Caution[] {
+  const out: Caution[] = [];
+  const hottest = c.kind === 'constant' ? c.setpointC : c.kind === 'cycling' ? c.highC : null;
+  const coldest = c.kind === 'constant' ? c.setpointC : c.kind === 'cycling' ? c.lowC : null;
+  if (hottest != null && hottest >= HOT_CAUTION_C) {
+    out.push({ key: 'hot', text: `Hot surfaces and samples: use heat-resistant gloves when opening the oven. ${LOCAL_RULES}` });
+  }
+  if (c.kind === 'cycling' || (coldest != null && coldest < 0)) {
+    out.push({
+      key: 'cold',
+      text: `Freezer or dry ice can cause cold burns: wear insulated gloves. Dry ice gives off carbon dioxide: use it only with good ventilation, never in a sealed container or small closed room. ${LOCAL_RULES}`,
+    });
+  }
+  if (c.kind === 'light' && c.lightSource === 'uv_cabinet') {
+    out.push({ key: 'uv', text: `UV light harms eyes and skin: keep the cabinet closed while the lamp is on. ${LOCAL_RULES}` });
+  }
+  if (c.kind === 'mechanical') {
+    out.push({ key: 'centrifuge', text: `Balance the rotor and keep the lid closed until it has stopped. ${LOCAL_RULES}` });
+  }
+  return out;
+}
