@@ -9,6 +9,9 @@ import { labs, users } from '../db/schema';
 import { audit } from '../services/audit';
 import { ensureStarterAttributes } from '../services/labs';
 import { DEMO_LABS, DEMO_PASSWORD } from './people';
+import { seedFormulas } from './formulas';
+import { seedStorage } from './storage';
+import { seedStudies } from './studies';
 
 let cachedHash: string | undefined;
 const demoHash = () => (cachedHash ??= bcrypt.hashSync(DEMO_PASSWORD, 10));
@@ -24,7 +27,19 @@ export interface SeededLab {
   members: Record<string, number>;
 }
 
-export async function seedDemo(db: Db): Promise<SeededLab[]> {
+export interface SeedOptions {
+  /**
+   * 'people' (tests): labs, members and starter attributes only.
+   * 'full' (npm start): also the catalogue, storage conditions with a chamber log,
+   * three running studies with observations and generated photos.
+   */
+  content?: 'people' | 'full';
+  /** Where generated demo photos go (full content only). */
+  uploadsDir?: string;
+  now?: Date;
+}
+
+export async function seedDemo(db: Db, opts: SeedOptions = {}): Promise<SeededLab[]> {
   const hash = demoHash();
   return db.transaction(async (tx) => {
     const out: SeededLab[] = [];
@@ -39,6 +54,24 @@ export async function seedDemo(db: Db): Promise<SeededLab[]> {
         members[p.email] = id;
       }
       await ensureStarterAttributes(tx, labId);
+      if (opts.content === 'full') {
+        const byRole = (role: string) => members[lab.people.find((p) => p.role === role)?.email ?? ''];
+        const author = byRole('formulator') ?? byRole('owner');
+        const conditions = await seedStorage(tx, labId, author);
+        if (byRole('formulator')) {
+          const catalogue = await seedFormulas(tx, labId, author, opts.now);
+          await seedStudies(
+            tx,
+            labId,
+            lab.timeZone,
+            { owner: byRole('owner'), formulator: byRole('formulator'), technician: byRole('technician') },
+            catalogue,
+            conditions,
+            opts.uploadsDir ?? '.data/uploads',
+            opts.now,
+          );
+        }
+      }
       await audit(tx, { labId, userId: null, action: 'create', entity: 'lab', entityId: labId, newValue: { name: lab.name, demo: true } });
       out.push({ id: labId, name: lab.name, members });
     }
