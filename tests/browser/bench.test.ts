@@ -143,7 +143,7 @@ describe('Bench on a tablet', () => {
     expect(text).toContain('Calendula cream, emulsifier trial');
     expect(text).toContain('oven 2');
     expect(text).toContain('50 mL PET jar, PP lid');
-    expect(text).toContain('Recording opens here');
+    expect(text).toMatch(/Record (Day|Week)/);
     expect(await page.getByTestId('sample-checkpoints').locator('li').count()).toBe(6);
     expect(await page.getByTestId('sample-checkpoints').locator('li[data-state="missed"]').count()).toBe(1);
     await settle(page);

@@ -1,0 +1,161 @@
+/**
+ * Numbers and words for the analysis screens. Every number goes through these guards, so a
+ * missing or non-finite value shows as a dash and never as NaN, Infinity or undefined.
+ * Pure; no I/O.
+ */
+import { COMPARED_LEVELS, COMPARED_LEVEL_LABELS, type ComparedLevel } from '@shared/compute/criteria';
+import type { ReasonMethod, SuggestResult } from '@shared/compute/suggest';
+import type { StoredVerdict } from '@shared/domain';
+import type { AnalysisAttribute, AnalysisCondition, AnalysisVariant } from './types';
+
+export const DASH = '—';
+
+/** True for a finite number. */
+export const isNum = (x: unknown): x is number => typeof x === 'number' && Number.isFinite(x);
+
+/** A number with fixed decimals and a true minus sign; a dash for anything that is not a finite number. */
+export function num(x: unknown, decimals = 2): string {
+  if (!isNum(x)) return DASH;
+  const d = Math.min(10, Math.max(0, Math.round(isNum(decimals) ? decimals : 2)));
+  const s = x.toFixed(d);
+  // "-0.00" reads as a change that is not there.
+  if (/^-0(\.0+)?$/.test(s)) return s.slice(1);
+  return s.startsWith('-') ? `−${s.slice(1)}` : s;
+}
+
+/** A number with its unit ("12 400 mPa·s", "5.42"); a dash when there is no number. */
+export function withUnit(x: unknown, unit: string | null | undefined, decimals = 2): string {
+  const n = num(x, decimals);
+  if (n === DASH || !unit) return n;
+  return `${n} ${unit}`;
+}
+
+/** Months as people say them: "11 months", "1 month", "3.7 months", "0 months". */
+export function monthsText(x: unknown, decimals = 1): string {
+  if (!isNum(x)) return DASH;
+  const whole = Math.abs(x - Math.round(x)) < 1e-9;
+  const shown = whole ? String(Math.round(x)) : num(x, decimals);
+  return `${shown} ${shown === '1' ? 'month' : 'months'}`;
+}
+
+/** °C written with a space and a true minus sign ("−10 °C"); a dash without a number. */
+export function celsius(x: unknown, decimals = 0): string {
+  return isNum(x) ? `${num(x, decimals)} °C` : DASH;
+}
+
+export const VARIANT_LABEL = (v: Pick<AnalysisVariant, 'code' | 'name'>) => (v.name && v.name !== v.code ? `${v.code}: ${v.name}` : v.code);
+
+export const ROLE_LABELS: Readonly<Record<string, string>> = {
+  control: 'Control',
+  real_time: 'Real time',
+  accelerated: 'Accelerated',
+  stress: 'Stress test',
+};
+
+export const KIND_LABELS: Readonly<Record<string, string>> = {
+  constant: 'Constant',
+  cycling: 'Cycling',
+  light: 'Light',
+  mechanical: 'Centrifuge',
+};
+
+/** "Accelerated · oven 2" */
+export function conditionFacts(c: Pick<AnalysisCondition, 'role' | 'kind' | 'location'>): string {
+  const parts = [ROLE_LABELS[c.role] ?? c.role];
+  if (c.kind !== 'constant') parts.push(KIND_LABELS[c.kind] ?? c.kind);
+  if (c.location) parts.push(c.location);
+  return parts.join(' · ');
+}
+
+/** "MKT 45.12 °C (2 184 readings)" or why there is none. */
+export function mktText(c: Pick<AnalysisCondition, 'mkt'>): string {
+  if (!c.mkt || !isNum(c.mkt.mktC)) return 'MKT: no chamber log for this period';
+  const n = isNum(c.mkt.readings) ? c.mkt.readings : 0;
+  return `MKT ${num(c.mkt.mktC, 2)} °C from ${n.toLocaleString('en-GB')} ${n === 1 ? 'reading' : 'readings'}`;
+}
+
+/** The meaning of each step of a graded, compared or pass/fail attribute, best first. */
+export function levelsOf(a: Pick<AnalysisAttribute, 'kind' | 'scale'>): { value: number; short: string; label: string }[] {
+  if (a.kind === 'compared') {
+    return COMPARED_LEVELS.map((l, i) => ({ value: i, short: COMPARED_LEVEL_LABELS[l], label: `${COMPARED_LEVEL_LABELS[l]} vs control` }));
+  }
+  if (a.kind === 'pass_fail') {
+    return [
+      { value: 0, short: 'pass', label: 'Pass' },
+      { value: 1, short: 'fail', label: 'Fail' },
+    ];
+  }
+  const scale = [...(a.scale ?? [])].sort((x, y) => x.grade - y.grade);
+  return scale.map((s) => ({ value: s.grade, short: String(s.grade), label: `${s.grade} ${s.label}` }));
+}
+
+/** A graded, compared or pass/fail value as a number on its scale (0 = best), or null. */
+export function levelValue(kind: string, value: unknown): number | null {
+  if (kind === 'graded') return isNum(value) ? value : null;
+  if (kind === 'compared') {
+    const i = COMPARED_LEVELS.indexOf(value as ComparedLevel);
+    return i >= 0 ? i : null;
+  }
+  if (kind === 'pass_fail') return value === true ? 0 : value === false ? 1 : null;
+  return null;
+}
+
+/** A recorded value in words ("5.42", "3 Visible layer", "slight", "Pass"). */
+export function valueWords(a: Pick<AnalysisAttribute, 'kind' | 'unit' | 'decimals' | 'scale'>, value: unknown): string {
+  if (value === null || value === undefined) return DASH;
+  switch (a.kind) {
+    case 'measured':
+      return withUnit(value, a.unit, a.decimals);
+    case 'graded': {
+      const step = a.scale?.find((s) => s.grade === value);
+      return step ? `${value} ${step.label}` : isNum(value) ? String(value) : DASH;
+    }
+    case 'compared':
+      return COMPARED_LEVEL_LABELS[value as ComparedLevel] ?? String(value);
+    case 'pass_fail':
+      return value === true ? 'Pass' : value === false ? 'Fail' : DASH;
+    default:
+      return String(value);
+  }
+}
+
+export const VERDICT_WORDS: Readonly<Record<StoredVerdict, string>> = {
+  pass: 'Pass',
+  fail: 'Fail',
+  no_criterion: 'Recorded (no criterion)',
+  needs_baseline: 'Cannot judge yet (no day-0 value)',
+  not_done: 'Not done',
+};
+
+export const METHOD_LABELS: Readonly<Record<ReasonMethod, string>> = {
+  regression: 'Regression (ICH Q1E)',
+  observed: 'Observed at real time',
+  q10: 'Q10 projection',
+  arrhenius: 'Arrhenius fit',
+  gate: 'Stress test gate',
+};
+
+export const BASIS_LABELS: Readonly<Record<SuggestResult['basis'], string>> = {
+  real_time: 'Real-time data',
+  projection_only: 'Projection only',
+  none: 'No figure yet',
+};
+
+/** The headline of a suggestion: "11 months", or "None yet". */
+export function suggestionHeadline(r: Pick<SuggestResult, 'months'>): string {
+  return isNum(r.months) ? monthsText(r.months, 0) : 'None yet';
+}
+
+/** A file name part from any text: lower case letters, digits and dashes. */
+export function slug(s: string): string {
+  return (
+    s
+      .normalize('NFKD')
+      .replace(/[\u0300-\u036f]/g, '')
+      .replace(/°/g, '')
+      .toLowerCase()
+      .replace(/[^a-z0-9]+/g, '-')
+      .replace(/^-+|-+$/g, '')
+      .slice(0, 60) || 'chart'
+  );
+}

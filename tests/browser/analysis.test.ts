@@ -1,0 +1,345 @@
+/**
+ * The analysis and comparison pages in headless Chromium, on a running study whose results are
+ * recorded through the API (as in tests/api/analysis.test.ts): a formulator sees the charts, the
+ * suggested shelf life with its reasons, changes Q10, downloads a chart's CSV and compares the two
+ * variants. Invented data: variant A holds; variant B separates at 45 °C from week 8, its pH
+ * drifts towards the limit at 25 °C and it separates a little after 3 freeze-thaw cycles.
+ */
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Page } from 'playwright-core';
+import { addDays } from '../../shared/compute/schedule';
+import type { BenchResponse, StudyDetail } from '../../shared/schemas/studies';
+import { DEMO, type Client } from '../helpers/app';
+import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { makeCatalogue, type Catalogue } from '../helpers/fixtures';
+
+let rig: BrowserRig;
+let formulator: Client;
+let cat: Catalogue;
+let study: StudyDetail;
+let today: string;
+
+const W = (n: number) => ({ unit: 'week' as const, n });
+const C = (n: number) => ({ unit: 'cycle' as const, n });
+const DAY0 = { unit: 'day' as const, n: 0 };
+
+/** Hourly readings from `from` (a date) for `hours` hours around `setC`, as a logger CSV. */
+function hourlyLog(from: string, hours: number, setC: number): string {
+  const t0 = Date.parse(`${from}T00:00:00Z`);
+  const lines = ['Timestamp,Temp (°C)'];
+  for (let i = 0; i < hours; i++) {
+    const v = setC + 0.6 * Math.sin(i / 7) + (i % 500 === 250 ? 2.5 : 0);
+    lines.push(`${new Date(t0 + i * 3_600_000).toISOString().replace('.000Z', 'Z')},${v.toFixed(2)}`);
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+beforeAll(async () => {
+  rig = await startBrowserRig();
+  formulator = await rig.t.signIn(DEMO.formulator);
+  cat = await makeCatalogue(rig.t.db, rig.t.labs[0].id, 'Calendula hand cream');
+  today = ((await formulator.get('/api/bench?days=7')).body as BenchResponse).today;
+  const start = addDays(today, -91);
+  const weekly = [DAY0, W(1), W(2), W(4), W(8), W(12)];
+  const a = cat.attributeIds;
+  const created = await formulator.post('/api/studies', {
+    productId: cat.productId,
+    title: 'Calendula cream, emulsifier trial',
+    startDate: start,
+    batchIds: cat.batchIds,
+    conditions: [
+      { conditionId: cat.conditions.fridge, role: 'control', template: null, offsets: weekly },
+      { conditionId: cat.conditions.room, role: 'real_time', template: null, offsets: weekly },
+      { conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: weekly },
+      { conditionId: cat.conditions.freezeThaw, role: 'stress', template: null, offsets: [DAY0, C(1), C(2), C(3)] },
+    ],
+    attributes: [
+      { attributeId: a.ph, criterion: { kind: 'change_abs', max: 0.5 } },
+      { attributeId: a.viscosity, criterion: { kind: 'change_pct', max: 20 } },
+      { attributeId: a.separation, criterion: { kind: 'worst_grade', grade: 1 } },
+      { attributeId: a.odor, criterion: { kind: 'worst_compared', level: 'slight' } },
+      { attributeId: a.color_l, criterion: { kind: 'none' } },
+      { attributeId: a.color_a, criterion: { kind: 'none' } },
+      { attributeId: a.color_b, criterion: { kind: 'none' } },
+    ],
+    samplesPerCell: 2,
+    containerDescription: '50 mL PET jar, PP lid',
+    fillGrams: 45,
+  });
+  expect(created.status, JSON.stringify(created.body)).toBe(201);
+  const started = await formulator.post(`/api/studies/${created.body.study.id}/start`);
+  expect(started.status, JSON.stringify(started.body)).toBe(200);
+  study = started.body.study;
+
+  const roleOf = new Map(study.conditions.map((c) => [c.id, c.role]));
+  const ids = Object.fromEntries(study.attributes.map((x) => [x.code, x.id]));
+  for (const cp of study.checkpoints) {
+    const role = roleOf.get(cp.studyConditionId);
+    const hot = role === 'accelerated';
+    const room = role === 'real_time';
+    const ft = role === 'stress';
+    const w = cp.offset.unit === 'week' ? cp.offset.n : 0;
+    const cycles = cp.offset.unit === 'cycle' ? cp.offset.n : 0;
+    for (const s of study.samples.filter((x) => x.studyConditionId === cp.studyConditionId)) {
+      const isB = s.batchId === cat.batchIds[1];
+      const jitter = (((w * 7 + s.replicate * 3 + (isB ? 1 : 0)) % 5) - 2) * 0.006;
+      const phRate = hot ? (isB ? 0.04 : 0.015) : room ? (isB ? 0.02 : 0.004) : 0.001;
+      const ph = Math.round((5.5 + (isB ? 0.02 : 0) - phRate * w + jitter) * 100) / 100;
+      const visc0 = isB ? 14000 : 12000;
+      const viscRate = hot ? (isB ? 0.025 : 0.01) : room ? 0.003 : 0;
+      const viscosity = Math.round(visc0 * (1 - viscRate * w) + jitter * 2000);
+      const separation = isB && hot ? (w >= 8 ? 3 : w >= 4 ? 1 : 0) : isB && ft && cycles >= 3 ? 2 : 0;
+      const odor = hot && w >= 12 ? (isB ? 'marked' : 'slight') : hot && isB && w >= 8 ? 'slight' : 'no_change';
+      const drift = hot ? (isB ? 1.8 : 1) : room ? 0.3 : 0;
+      const entries = [
+        { studyAttributeId: ids.ph, value: ph },
+        { studyAttributeId: ids.viscosity, value: viscosity },
+        { studyAttributeId: ids.separation, value: separation },
+        { studyAttributeId: ids.odor, value: odor },
+        { studyAttributeId: ids.color_l, value: Math.round((82 - 0.08 * drift * w + jitter) * 100) / 100 },
+        { studyAttributeId: ids.color_a, value: Math.round((1.2 + 0.02 * drift * w) * 100) / 100 },
+        { studyAttributeId: ids.color_b, value: Math.round((8.5 + 0.12 * drift * w + jitter) * 100) / 100 },
+      ];
+      const res = await formulator.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, { entries });
+      expect(res.status, JSON.stringify(res.body)).toBe(200);
+    }
+  }
+
+  // Chamber logs for the oven and the 25 °C cabinet over the study so far: MKT beside each.
+  for (const [id, setC] of [
+    [cat.conditions.oven45, 45],
+    [cat.conditions.room, 25],
+  ] as const) {
+    const res = await formulator.agent
+      .post(`/api/storage-conditions/${id}/logs`)
+      .set('X-Keepwell-Request', '1')
+      .attach('file', Buffer.from(hourlyLog(start, 90 * 24, setC), 'utf8'), `logger-${setC}.csv`);
+    expect(res.status, JSON.stringify(res.body)).toBe(201);
+  }
+}, 240_000);
+afterAll(async () => rig?.close());
+
+/** Signs in and lets the Bench finish loading, so leaving it aborts no request. */
+async function signIn(page: Page, email: string) {
+  await signInAs(page, rig.baseUrl, email);
+  await page.waitForLoadState('networkidle');
+}
+
+async function chartsSettled(page: Page) {
+  await page.waitForSelector('.kw-chart canvas');
+  await expect
+    .poll(() => page.locator('.kw-chart[data-rendered="false"]').count(), { timeout: 30_000 })
+    .toBe(0);
+  await page.evaluate(() => document.fonts.ready);
+  await page.waitForTimeout(400);
+}
+
+/** An element screenshot with the app bar unpinned, so a tall element is not crossed by it. */
+async function shot(page: Page, testId: string, file: string) {
+  await page.addStyleTag({ content: 'header.bar { position: static !important; }' });
+  const el = page.getByTestId(testId);
+  await el.scrollIntoViewIfNeeded();
+  await page.waitForTimeout(300);
+  await el.screenshot({ path: join(SHOTS, file) });
+}
+
+async function noBadNumbers(page: Page) {
+  const text = await page.locator('main, .kw-page').first().innerText();
+  expect(text).not.toMatch(/\bNaN\b|\bundefined\b|Infinity/);
+}
+
+describe('Analysis page', () => {
+  it('a formulator sees the charts, the suggested shelf life with its reasons, changes Q10 and gets the CSV', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop, acceptDownloads: true });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.formulator);
+    const opened = Date.now();
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
+    await page.waitForSelector('[data-testid="analysis-title"]');
+    await chartsSettled(page);
+    console.info(`analysis page: ${await page.locator('.kw-chart').count()} charts drawn ${Date.now() - opened} ms after navigation`);
+    await page.screenshot({ path: join(SHOTS, 'analysis-desktop.png') });
+
+    // charts: pH, viscosity, L*, a*, b* x 4 conditions, ΔE, and separation + odor heat grids
+    expect(await page.locator('[data-testid="measured-ph"] .kw-chart').count()).toBe(4);
+    expect(await page.locator('.kw-chart').count()).toBe(5 * 4 + 1 + 2);
+    expect(await page.locator('[data-testid="heat-separation"] .kw-chart').count()).toBe(1);
+    expect(await page.locator('[data-testid="delta-e"] .kw-chart').count()).toBe(1);
+    // MKT beside the oven's chart, a note where there is no log
+    const ovenPanel = page.locator('[data-testid="measured-ph"] .panel').filter({ hasText: '45 °C' });
+    expect(await ovenPanel.locator('.mkt').textContent()).toMatch(/^MKT 4\d\.\d\d °C from 2,160 readings$/);
+    expect(await page.getByTestId('conditions').textContent()).toContain('No chamber log for the study period');
+
+    // failing results are listed, not only drawn
+    const viscFails = page.locator('[data-testid="measured-viscosity"] [data-testid="failing-list"]');
+    expect(await viscFails.textContent()).toMatch(/results? fails? the criterion/);
+    expect(await viscFails.textContent()).toContain('Week 12');
+
+    // a suggested shelf life per variant with its reasons table, basis, label dating and caution
+    for (const code of ['A', 'B']) {
+      const card = page.getByTestId(`suggestion-${code}`);
+      expect(await card.getByTestId('suggested-months').textContent()).toMatch(/^(\d+ months?|None yet)$/);
+      // the reasons that give a figure or a flag first; all of them one click away
+      const shown = await card.getByTestId('reasons-table').locator('tbody tr').count();
+      expect(shown).toBeGreaterThanOrEqual(3);
+      await card.getByTestId('reasons-toggle').click();
+      expect(await card.getByTestId('reasons-table').locator('tbody tr').count()).toBeGreaterThan(shown);
+      if (code === 'A') await card.getByTestId('reasons-toggle').click();
+      expect(await card.getByTestId('caution').textContent()).toContain('qualified safety assessor');
+    }
+    const b = page.getByTestId('suggestion-B');
+    expect(await b.getByTestId('gates').textContent()).toContain('Label: Protect from freezing.');
+    expect(await b.textContent()).toContain('Regulation 1223/2009');
+    expect(await b.locator('tr.governs').count()).toBe(1);
+    expect(await page.getByTestId('q10-note').textContent()).toContain('rule of thumb, not a prediction');
+    await noBadNumbers(page);
+
+    await page.screenshot({ path: join(SHOTS, 'analysis-desktop-full.png'), fullPage: true });
+    await shot(page, 'suggestion-B', 'analysis-reasons-table.png');
+    await shot(page, 'heat-separation', 'analysis-heat-grid.png');
+    await shot(page, 'measured-ph', 'analysis-ph-chart.png');
+    await shot(page, 'delta-e', 'analysis-color-difference.png');
+
+    // Q10: the server's field error beside the field, then a new figure with Q10 = 3
+    const monthsB2 = await b.getByTestId('suggested-months').textContent();
+    await page.locator('[data-testid="q10-form"] input').fill('0');
+    await page.getByTestId('q10-apply').click();
+    await expect.poll(() => page.getByTestId('q10-form').locator('.el-form-item__error').textContent()).toContain('Q10 must be more than 0');
+    await page.locator('[data-testid="q10-form"] input').fill('abc');
+    await page.getByTestId('q10-apply').click();
+    await expect.poll(() => page.getByTestId('q10-form').locator('.el-form-item__error').textContent()).toContain('Enter a number');
+    await page.locator('[data-testid="q10-form"] input').fill('3');
+    await page.getByTestId('q10-apply').click();
+    await expect.poll(() => page.getByTestId('q10-note').textContent()).toMatch(/Q10 = 3 \(the lab's default is 2\)/);
+    await expect.poll(() => page.getByTestId('q10-form').locator('.el-form-item__error').count()).toBe(0);
+    // B's figure comes from its 45 °C projection (Q10 = 2: 4 weeks x 4 = 3.68 months -> 3); with Q10 = 3 the
+    // projection gives 0.92 x 9 = 8.28 months and B's 25 °C pH regression (5.32 months) governs instead
+    expect(monthsB2).toBe('3 months');
+    await expect.poll(() => b.getByTestId('suggested-months').textContent()).toBe('5 months');
+    expect(await b.locator('tr.governs').textContent()).toContain('Regression (ICH Q1E)');
+
+    // CSV of one chart, built in the browser
+    const [download] = await Promise.all([
+      page.waitForEvent('download'),
+      page.locator('[data-testid="measured-ph"] [data-testid="csv-button"]').first().click(),
+    ]);
+    expect(download.suggestedFilename()).toMatch(/^keepwell-study-\d+-ph-4-c-control-\d+\.csv$/);
+    const csv = readFileSync((await download.path())!, 'utf8');
+    expect(csv.split('\r\n')[0]).toBe('\uFEFFAttribute,Unit,Variant,Lot,Condition,Checkpoint,Months,Due date,Sample,Value,Verdict,Lower limit,Upper limit');
+    // 2 variants x 2 samples x 6 checkpoints
+    expect(csv.trim().split('\r\n')).toHaveLength(1 + 24);
+
+    // group by variant: a panel per variant
+    await page.getByTestId('grouping').getByText('A chart per variant').click();
+    await page.waitForURL(/group=variant/);
+    await expect.poll(() => page.locator('[data-testid="measured-ph"] .panel').count()).toBe(2);
+    await chartsSettled(page);
+    await shot(page, 'measured-ph', 'analysis-ph-by-variant.png');
+
+    // on to the comparison
+    await page.getByTestId('compare-link').click();
+    await page.waitForURL(/\/compare/);
+    await page.waitForSelector('[data-testid="compare-matrix"]');
+    // the one console error is the browser's note of the deliberate Q10 = 0 answered 400
+    expect(problems).toEqual(['console: Failed to load resource: the server responded with a status of 400 (Bad Request)']);
+    await page.close();
+  });
+
+  it('keeps a 10 000-point chart responsive: sampled, no symbols, no animation', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.formulator);
+    const real = (await formulator.get(`/api/studies/${study.id}/analysis`)).body.analysis;
+    const ph = real.attributes.find((x: { code: string }) => x.code === 'ph').id;
+    const roomId = study.conditions.find((c) => c.role === 'real_time')!.id;
+    const n = 10_000;
+    const big = {
+      ...real,
+      // pH alone, one invented series of 10 000 readings at 25 °C (as a data logger might give)
+      attributes: real.attributes.filter((x: { id: number }) => x.id === ph),
+      series: [
+        {
+          studyAttributeId: ph,
+          variantId: real.variants[0].id,
+          batchId: cat.batchIds[0],
+          lotCode: real.variants[0].lots[0],
+          studyConditionId: roomId,
+          points: Array.from({ length: n }, (_, i) => ({
+            checkpointId: i + 1,
+            label: `Reading ${i + 1}`,
+            months: (i / n) * 24,
+            dueDate: today,
+            value: Math.round((5.5 - 0.01 * (i / n) * 24 + 0.05 * Math.sin(i / 40)) * 1000) / 1000,
+            verdict: 'pass',
+            sampleCode: 'LOG-1',
+          })),
+        },
+      ],
+      deltaE: [],
+      regressions: [],
+    };
+    await page.route(`**/api/studies/${study.id}/analysis`, (route) => route.fulfill({ status: 200, contentType: 'application/json', body: JSON.stringify({ analysis: big }) }));
+    const t0 = Date.now();
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
+    await chartsSettled(page);
+    const ms = Date.now() - t0 - 400;
+    const panel = page.locator('[data-testid="measured-ph"] .panel').filter({ hasText: '25 °C' });
+    expect(await panel.textContent()).toContain('10,000 readings: lines sampled, symbols off');
+    // a hover answers quickly with 10 000 points on the canvas
+    const box = (await panel.locator('canvas').first().boundingBox())!;
+    const h0 = Date.now();
+    for (let i = 0; i < 20; i++) await page.mouse.move(box.x + 60 + i * 20, box.y + box.height / 2);
+    const hoverMs = (Date.now() - h0) / 20;
+    console.info(`10 000-point chart: drawn ${ms} ms after navigation; ${hoverMs.toFixed(1)} ms per pointer move`);
+    await panel.screenshot({ path: join(SHOTS, 'analysis-10000-points.png') });
+    expect(hoverMs).toBeLessThan(250);
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
+  it('is not offered to technicians', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    await signIn(page, DEMO.technician);
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
+    await page.waitForURL(/\/not-allowed/);
+    await page.close();
+  });
+});
+
+describe('Compare page', () => {
+  it('shows every attribute at every condition, the first failures and each shelf life for two variants', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.formulator);
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/compare`);
+    const matrix = page.getByTestId('compare-matrix');
+    await matrix.waitFor();
+    const oven = study.conditions.find((c) => c.role === 'accelerated')!.id;
+    const ft = study.conditions.find((c) => c.role === 'stress')!.id;
+    // 7 attributes as rows; 4 conditions x 2 variants as columns
+    expect(await matrix.locator('tbody tr').count()).toBe(7);
+    expect(await matrix.locator('tbody tr').first().locator('td').count()).toBe(4 * 2);
+    const shelf = await page.getByTestId('compare-shelf-life').textContent();
+    expect(shelf).toMatch(/A: Variant A\s*\d+ months?/);
+    expect(shelf).toContain('Label: Protect from freezing.');
+    expect(await page.getByTestId(`first-failure-${oven}-A`).textContent()).toContain('None so far');
+    expect(await page.getByTestId(`first-failure-${oven}-B`).textContent()).toMatch(/Week 8 \(1\.84 months\): .*Separation/);
+    expect(await page.getByTestId(`first-failure-${ft}-B`).textContent()).toMatch(/^\s*Cycle 3: Separation\s*$/);
+    const sep = (await page.getByTestId(`cell-${oven}-separation-B`).textContent()) ?? '';
+    expect(sep).toMatch(/3 Visible layer\s*Fail\s*since Week 8/);
+    expect(await page.getByTestId(`cell-${oven}-separation-A`).textContent()).toMatch(/0 None\s*Pass/);
+    expect(await page.getByTestId(`compare-condition-${oven}`).textContent()).toMatch(/MKT 4\d\.\d\d °C/);
+    await page.evaluate(() => document.fonts.ready);
+    await page.screenshot({ path: join(SHOTS, 'compare-desktop.png') });
+    // one screen at 1440 x 900
+    const bottom = await matrix.evaluate((el) => el.getBoundingClientRect().bottom);
+    console.info(`comparison matrix ends at ${Math.round(bottom)} px`);
+    expect(bottom).toBeLessThanOrEqual(900);
+    const text = await page.locator('.compare-page').innerText();
+    expect(text).not.toMatch(/\bNaN\b|\bundefined\b|Infinity/);
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+});
