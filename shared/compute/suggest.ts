@@ -201,7 +201,7 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
           outcome === 'block'
             ? 'release is blocked until the failure is resolved'
             : outcome === 'storage_instruction'
-              ? `the label needs: ${instruction}`
+              ? `the label needs: ${(instruction ?? '').replace(/\.$/, '')}`
               : 'noted for review; no effect on the figure';
         const message = `${c.name}: ${names.join(', ')} failed; ${effect}.`;
         gates.push({ condition: c.name, kind: c.kind, attributes: names, outcome, instruction, message });
