@@ -57,6 +57,24 @@ export function criterionText(c: Criterion, unit: string | null): string {
   }
 }
 
+const METHOD_WORDS: Record<string, string> = {
+  regression: 'regression (ICH Q1E)',
+  observed: 'last passing checkpoint',
+  q10: 'Q10 projection',
+  arrhenius: 'Arrhenius fit',
+  gate: 'gate',
+};
+
+/** The shipped Inter subset lacks some symbols: spell them so no empty boxes print. */
+function printable<T>(x: T): T {
+  if (typeof x === 'string') return x.replace(/Δ/g, 'Delta ').replace(/≈/g, '~').replace(/≤/g, '<=').replace(/≥/g, '>=').replace(/√/g, 'sqrt').replace(/·/g, '·') as T;
+  if (Array.isArray(x)) return x.map(printable) as T;
+  if (x && typeof x === 'object' && !(x instanceof Buffer)) {
+    return Object.fromEntries(Object.entries(x).map(([k, v]) => [k, k === 'svg' || k === 'image' ? v : printable(v)])) as T;
+  }
+  return x;
+}
+
 const fmtValue = (v: unknown) =>
   v == null ? '—' : typeof v === 'boolean' ? (v ? 'pass' : 'fail') : typeof v === 'string' ? (COMPARED_LEVEL_LABELS[v as ComparedLevel] ?? v) : String(v);
 const VERDICT: Record<string, string> = { pass: 'pass', fail: 'FAIL', no_criterion: '', needs_baseline: 'no day 0', not_done: 'not done' };
@@ -64,17 +82,23 @@ const VERDICT: Record<string, string> = { pass: 'pass', fail: 'FAIL', no_criteri
 /** One measured attribute over time, every series a line with its own dash pattern (black-and-white friendly). */
 function chartSvg(title: string, unit: string | null, series: { name: string; points: [number, number][] }[], limit?: { lower?: number | null; upper?: number | null }): string {
   const chart = echarts.init(null, null, { renderer: 'svg', ssr: true, width: 720, height: 300 });
-  const dashes = ['solid', 'dashed', 'dotted', [8, 3, 2, 3], [2, 2]] as const;
-  const symbols = ['circle', 'rect', 'triangle', 'diamond', 'emptyCircle'];
+  const dashes = ['solid', 'dashed', 'dotted', [8, 3, 2, 3], [2, 2], [12, 4], [4, 4, 1, 4]] as const;
+  const symbols = ['circle', 'rect', 'triangle', 'diamond', 'emptyCircle', 'emptyRect', 'emptyTriangle', 'pin'];
   chart.setOption({
     animation: false,
     backgroundColor: '#ffffff',
     textStyle: { fontFamily: 'Inter, sans-serif' },
     title: { text: title, left: 0, textStyle: { fontSize: 13, fontWeight: 600, color: '#111' } },
-    legend: { top: 0, right: 0, textStyle: { fontSize: 10, color: '#222' } },
-    grid: { left: 56, right: 16, top: 40, bottom: 36 },
-    xAxis: { type: 'value', name: 'months', nameLocation: 'middle', nameGap: 24, axisLine: { lineStyle: { color: '#444' } }, splitLine: { show: false } },
-    yAxis: { type: 'value', name: unit ?? '', scale: true, axisLine: { show: true, lineStyle: { color: '#444' } }, splitLine: { lineStyle: { color: '#e5e5e5' } } },
+    legend: { bottom: 0, left: 0, textStyle: { fontSize: 10, color: '#222' } },
+    grid: { left: 56, right: 16, top: 36, bottom: 64 },
+    xAxis: { type: 'value', name: 'months', nameLocation: 'middle', nameGap: 22, axisLine: { lineStyle: { color: '#444' } }, splitLine: { show: false } },
+    yAxis: {
+      type: 'value',
+      name: unit ?? '',
+      scale: true,
+      // Keep the acceptance limits in view.
+      min: (v: { min: number }) => Math.min(v.min, limit?.lower ?? v.min),
+      max: (v: { max: number }) => Math.max(v.max, limit?.upper ?? v.max), axisLine: { show: true, lineStyle: { color: '#444' } }, splitLine: { lineStyle: { color: '#e5e5e5' } } },
     series: series.map((s, i) => ({
       name: s.name,
       type: 'line',
@@ -120,15 +144,17 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
   };
   const condName = (id: number) => a.conditions.find((c) => c.id === id)?.name ?? String(id);
   const h = (text: string) => ({ text, style: 'h2', margin: [0, 14, 0, 6] });
-  const table = (widths: (string | number)[], head: string[], body: unknown[][]) => ({
-    table: { headerRows: 1, widths, body: [head.map((x) => ({ text: x, style: 'th' })), ...body] },
+  const table = (widths: (string | number)[], head: string[] | null, body: unknown[][]) => ({
+    table: { headerRows: head ? 1 : 0, widths, body: head ? [head.map((x) => ({ text: x, style: 'th' })), ...body] : body },
     layout: { hLineWidth: (i: number) => (i <= 1 ? 0.8 : 0.3), vLineWidth: () => 0, hLineColor: () => '#555', paddingTop: () => 3, paddingBottom: () => 3 },
     fontSize: 8.5,
   });
 
   // Formulas as of the batches.
   const formulas = batchRows.map((b) => {
-    const snap = (b.formulaSnapshot as { phase?: string; tradeName?: string; inciName?: string; ingredient?: string; percent: number }[]) ?? [];
+    type SnapLine = { phase?: string; tradeName?: string; inciName?: string; ingredient?: string; percent: number };
+    const raw = b.formulaSnapshot as SnapLine[] | { lines?: SnapLine[] } | null;
+    const snap: SnapLine[] = Array.isArray(raw) ? raw : (raw?.lines ?? []);
     return [
       { text: `Lot ${b.lotCode} (${variantName(b.variantId)}), made ${b.madeOn}, ${b.sizeGrams} g, ${b.packaging}`, bold: true, margin: [0, 6, 0, 2] },
       snap.length
@@ -211,7 +237,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       { text: lab.name, style: 'muted' },
       { text: 'Stability report', style: 'h1' },
       { text: d.title, fontSize: 13, margin: [0, 0, 0, 10] },
-      table(['auto', '*'], ['', ''], [
+      table(['auto', '*'], null, [
         ['Product', `${d.product.name} (${PRODUCT_TYPE_LABELS[d.product.type as ProductType] ?? d.product.type})`],
         ['Study status', STUDY_STATUS_LABELS[d.status]],
         ['Day 0', d.startDate],
@@ -232,7 +258,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       ])),
       { text: 'MKT: mean kinetic temperature, ΔH/R = 10 000 K (Haynes 1971, as used in USP <1160>), over the chamber log readings since day 0.', style: 'muted', margin: [0, 3, 0, 0] },
       h('Schedule'),
-      table(['*', 'auto', 'auto', 'auto'], ['Condition', 'Checkpoint', 'Due', 'State'], d.checkpoints.map((c) => [condName(c.studyConditionId), c.label, c.dueDate, c.state + (c.missedReason ? ` (${c.missedReason})` : '')])),
+      table(['*', 'auto', 'auto', 'auto'], ['Condition', 'Checkpoint', 'Due', 'State'], d.checkpoints.map((c) => [condName(c.studyConditionId), c.label, c.dueDate, c.state.charAt(0).toUpperCase() + c.state.slice(1) + (c.missedReason ? ` (${c.missedReason})` : '')])),
       h('Attributes and acceptance criteria'),
       table(['*', 'auto'], ['Attribute', 'Accepted when'], a.attributes.map((x) => [x.name, criterionText(x.criterion, x.unit)])),
       { text: 'Default criteria are common practice with no published source; the lab sets its own.', style: 'muted', margin: [0, 3, 0, 0] },
@@ -242,7 +268,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       ...a.suggestions.flatMap((s) => [
         { text: `${variantName(s.variantId)}: ${s.result.months != null ? `${s.result.months} months` : 'no figure yet'} (${s.result.basis.replace('_', ' ')})`, bold: true, margin: [0, 6, 0, 2] },
         s.result.reasons.length
-          ? table(['auto', 'auto', 'auto', 'auto', '*'], ['Attribute', 'Condition', 'Method', 'Months', 'Rule and data'], s.result.reasons.map((r) => [r.attribute, r.condition, r.method, r.figureMonths != null ? r.figureMonths.toFixed(1) : '—', `${r.rule} ${r.message} (${r.dataPoints} results)`]))
+          ? table(['auto', 'auto', 'auto', 'auto', '*'], ['Attribute', 'Condition', 'Method', 'Months', 'Rule and data'], s.result.reasons.map((r) => [r.attribute, r.condition, METHOD_WORDS[r.method] ?? r.method, r.figureMonths != null ? r.figureMonths.toFixed(1) : '—', `${r.rule} ${r.message} (${r.dataPoints} results)`]))
           : { text: 'No reasons yet.', italics: true },
         ...(s.result.gates.length ? [{ text: `Gates: ${s.result.gates.map((g) => g.message).join(' ')}`, margin: [0, 3, 0, 0] }] : []),
         { text: s.result.confidenceNote, style: 'muted', margin: [0, 3, 0, 0] },
@@ -284,5 +310,5 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       { text: 'Labelling rules (EU Regulation 1223/2009 Art. 19(1)(c)) and safety substantiation (US MoCRA 2022) are stated as applied; the lab’s regulatory adviser and safety assessor have the last word.', style: 'muted', margin: [0, 12, 0, 0] },
     ],
   };
-  return pdfmake.createPdf(doc).getBuffer();
+  return pdfmake.createPdf({ ...doc, content: printable(doc.content) }).getBuffer();
 }

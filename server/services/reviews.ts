@@ -42,7 +42,8 @@ export async function studyDataHash(db: DbOrTx, studyId: number): Promise<string
   const cps = await db
     .select({ id: checkpoints.id, status: checkpoints.status, dueDate: checkpoints.dueDate, label: checkpoints.label })
     .from(checkpoints)
-    .where(eq(checkpoints.studyId, studyId))
+    // Open checkpoints hold no data yet: adding one (e.g. "continue testing" for another variant) does not change what a signature covers.
+    .where(and(eq(checkpoints.studyId, studyId), sql`${checkpoints.status} <> 'open'`))
     .orderBy(asc(checkpoints.id));
   const obs = await db
     .select({

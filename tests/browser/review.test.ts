@@ -1,0 +1,464 @@
+/**
+ * Release review in headless Chromium: a running study with results, chamber logs and
+ * photos is built through the API and submitted by the formulator (through the API: the
+ * study page mounts SubmitForm once the lead wires it in); the owner opens Reviews, opens
+ * the study, signs a release for variant A (after one wrong password) and returns variant B
+ * for more testing with an added checkpoint. The queue no longer lists the study and the
+ * review page shows both outcomes. Then the PDF (first two pages rendered with pdftoppm)
+ * and the print-friendly web report. Invented data: A holds; B separates at 45 °C by week 8.
+ */
+import { execFileSync } from 'node:child_process';
+import { copyFileSync, mkdtempSync, readdirSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import sharp from 'sharp';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Page } from 'playwright-core';
+import { seedFormulas } from '../../server/demo/formulas';
+import { addDays } from '../../shared/compute/schedule';
+import type { BenchResponse, StudyDetail } from '../../shared/schemas/studies';
+import { DEMO, DEMO_PASSWORD, type Client } from '../helpers/app';
+import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { makeCatalogue, planFor } from '../helpers/fixtures';
+
+let rig: BrowserRig;
+let formulator: Client, technician: Client, owner: Client;
+let study: StudyDetail;
+let today: string;
+
+const W = (n: number) => ({ unit: 'week' as const, n });
+const C = (n: number) => ({ unit: 'cycle' as const, n });
+const DAY0 = { unit: 'day' as const, n: 0 };
+
+/** Hourly readings from `from` for `hours` hours around `setC`, with a few warm spikes, as a logger CSV. */
+function hourlyLog(from: string, hours: number, setC: number): string {
+  const t0 = Date.parse(`${from}T00:00:00Z`);
+  const lines = ['Timestamp,Temp (°C)'];
+  for (let i = 0; i < hours; i++) {
+    const v = setC + 0.6 * Math.sin(i / 7) + (i % 400 === 200 ? 2.8 : 0);
+    lines.push(`${new Date(t0 + i * 3_600_000).toISOString().replace('.000Z', 'Z')},${v.toFixed(2)}`);
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+/** A jar seen from above: cream colour, and for a separated sample an oily band on top (invented image). */
+async function jarPhoto(tint: number, separated: boolean): Promise<Buffer> {
+  const w = 320;
+  const h = 240;
+  const px = Buffer.alloc(w * h * 3);
+  for (let y = 0; y < h; y++) {
+    for (let x = 0; x < w; x++) {
+      const inJar = (x - 160) ** 2 + (y - 120) ** 2 < 100 ** 2;
+      const band = separated && y < 95;
+      const [r, g, b] = !inJar ? [214, 214, 210] : band ? [222, 196, 120 - tint] : [246, 240 - tint, 222 - tint * 2];
+      const i = (y * w + x) * 3;
+      px[i] = r;
+      px[i + 1] = g;
+      px[i + 2] = b;
+    }
+  }
+  return sharp(px, { raw: { width: w, height: h, channels: 3 } }).jpeg({ quality: 85 }).toBuffer();
+}
+
+beforeAll(async () => {
+  rig = await startBrowserRig();
+  [formulator, technician, owner] = await Promise.all([rig.t.signIn(DEMO.formulator), rig.t.signIn(DEMO.technician), rig.t.signIn(DEMO.owner)]);
+  const lab = rig.t.labs[0];
+  // Real formulas and lots (with their formula snapshots) from the demo catalogue; conditions and attributes from the fixtures.
+  const demo = await rig.t.db.transaction((tx) => seedFormulas(tx, lab.id, lab.members[DEMO.formulator]));
+  const cat = await makeCatalogue(rig.t.db, lab.id);
+  today = ((await formulator.get('/api/bench?days=7')).body as BenchResponse).today;
+  const start = addDays(today, -56);
+  const weekly = [DAY0, W(1), W(2), W(4), W(8), W(12)];
+  const a = cat.attributeIds;
+  const created = await formulator.post('/api/studies', {
+    productId: demo.products.handCream,
+    title: 'Calendula hand cream A vs B: release study',
+    startDate: start,
+    batchIds: demo.batches.slice(0, 2),
+    conditions: [
+      { conditionId: cat.conditions.fridge, role: 'control', template: null, offsets: weekly },
+      { conditionId: cat.conditions.room, role: 'real_time', template: null, offsets: weekly },
+      { conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: weekly },
+      { conditionId: cat.conditions.freezeThaw, role: 'stress', template: null, offsets: [DAY0, C(1), C(2), C(3)] },
+    ],
+    attributes: [
+      { attributeId: a.ph, criterion: { kind: 'change_abs', max: 0.5 } },
+      { attributeId: a.viscosity, criterion: { kind: 'change_pct', max: 20 } },
+      { attributeId: a.separation, criterion: { kind: 'worst_grade', grade: 1 } },
+      { attributeId: a.odor, criterion: { kind: 'worst_compared', level: 'slight' } },
+    ],
+    samplesPerCell: 1,
+    containerDescription: '50 mL PET jar, PP lid',
+    fillGrams: 45,
+  });
+  expect(created.status, JSON.stringify(created.body)).toBe(201);
+  const started = await formulator.post(`/api/studies/${created.body.study.id}/start`);
+  expect(started.status, JSON.stringify(started.body)).toBe(200);
+  study = started.body.study;
+
+  const roleOf = new Map(study.conditions.map((c) => [c.id, c.role]));
+  const ids = Object.fromEntries(study.attributes.map((x) => [x.code, x.id]));
+  const variantB = demo.variants.handCreamB;
+  const isB = (batchId: number) => study.batches.find((b) => b.id === batchId)?.variant.id === variantB;
+  for (const cp of study.checkpoints.filter((c) => c.dueDate <= today)) {
+    const role = roleOf.get(cp.studyConditionId);
+    const hot = role === 'accelerated';
+    const room = role === 'real_time';
+    const w = cp.offset.unit === 'week' ? cp.offset.n : 0;
+    for (const s of study.samples.filter((x) => x.studyConditionId === cp.studyConditionId)) {
+      const b = isB(s.batchId);
+      const phRate = hot ? (b ? 0.035 : 0.012) : room ? 0.004 : 0.001;
+      const ph = Math.round((5.5 + (b ? 0.03 : 0) - phRate * w + ((w % 3) - 1) * 0.01) * 100) / 100;
+      const viscRate = hot ? (b ? 0.02 : 0.008) : room ? 0.003 : 0;
+      const viscosity = Math.round((b ? 14000 : 12000) * (1 - viscRate * w));
+      const separation = b && hot ? (w >= 8 ? 2 : w >= 4 ? 1 : 0) : 0;
+      const odor = hot && b && w >= 8 ? 'slight' : 'no_change';
+      const res = await technician.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, {
+        entries: [
+          { studyAttributeId: ids.ph, value: ph },
+          { studyAttributeId: ids.viscosity, value: viscosity },
+          { studyAttributeId: ids.separation, value: separation },
+          { studyAttributeId: ids.odor, value: odor },
+        ],
+      });
+      expect(res.status, JSON.stringify(res.body)).toBe(200);
+      // Photos of the 45 °C samples at day 0, week 4 and week 8.
+      if (hot && [0, 4, 8].includes(w)) {
+        const up = await technician.agent
+          .post(`/api/samples/${s.code}/checkpoints/${cp.id}/photos`)
+          .set('X-Keepwell-Request', '1')
+          .attach('photos', await jarPhoto(w * 2, b && w >= 8), `${s.code}-w${w}.jpg`);
+        expect(up.status, JSON.stringify(up.body)).toBe(201);
+      }
+    }
+  }
+  for (const [id, setC] of [
+    [cat.conditions.oven45, 45],
+    [cat.conditions.room, 25],
+  ] as const) {
+    const res = await formulator.agent
+      .post(`/api/storage-conditions/${id}/logs`)
+      .set('X-Keepwell-Request', '1')
+      .attach('file', Buffer.from(hourlyLog(start, 56 * 24, setC), 'utf8'), `logger-${setC}.csv`);
+    expect(res.status, JSON.stringify(res.body)).toBe(201);
+  }
+
+  // The formulator submits; week 12 is still open, so a reason is needed.
+  const variantIds = [...new Set(study.batches.map((b) => b.variant.id))];
+  const submitted = await formulator.post(`/api/studies/${study.id}/submit`, {
+    summary:
+      'A held at every condition through week 8: pH and viscosity well inside the limits, no separation. B separated at 45 °C by week 8 (grade 2) with a slight odour change; its 25 °C results are fine. I propose releasing A with a provisional 6 months (the 45 °C projection gives about 7) and testing B further.',
+    proposals: variantIds.map((variantId) => ({ variantId, shelfLifeMonths: variantId === variantB ? null : 6, paoMonths: variantId === variantB ? null : 6 })),
+    openCheckpointsReason: 'Week 12 is not needed for A; B goes on in any case',
+  });
+  expect(submitted.status, JSON.stringify(submitted.body)).toBe(200);
+}, 240_000);
+afterAll(async () => rig?.close());
+
+async function signIn(page: Page, email: string) {
+  await signInAs(page, rig.baseUrl, email);
+  await page.waitForLoadState('networkidle');
+}
+
+/** An element screenshot with the app bar unpinned, so a tall element is not crossed by it. */
+async function shot(page: Page, el: ReturnType<Page['locator']>, file: string) {
+  await page.addStyleTag({ content: 'header.bar { position: static !important; }' });
+  await el.scrollIntoViewIfNeeded();
+  await page.waitForTimeout(300);
+  await el.screenshot({ path: join(SHOTS, file) });
+}
+
+async function noBadText(page: Page) {
+  const text = await page.locator('main').innerText();
+  expect(text).not.toMatch(/\bNaN\b|\bundefined\b|\bnull\b|Infinity|\[object/);
+}
+
+describe('Release review', () => {
+  it('the owner signs a release for A, returns B for more testing, and the queue empties', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.owner);
+
+    // The queue: oldest first, with product, who submitted and how many variants are decided.
+    await page.getByTestId('nav-reviews').click();
+    const item = page.getByTestId(`queue-${study.id}`);
+    await item.waitFor();
+    expect(await item.textContent()).toContain('Calendula hand cream');
+    expect(await item.textContent()).toContain('Submitted by Theo Okafor');
+    expect(await page.getByTestId(`decided-${study.id}`).textContent()).toBe('0 of 2');
+    await page.screenshot({ path: join(SHOTS, 'reviews-queue.png') });
+    await page.getByTestId(`open-review-${study.id}`).click();
+    await page.waitForURL(new RegExp(`/reviews/${study.id}$`));
+    const a = page.getByTestId('variant-A');
+    const b = page.getByTestId('variant-B');
+    await a.waitFor();
+
+    // The evidence: submission, chamber records with MKT, per variant the proposal, suggestion, reasons, failures, photos.
+    expect(await page.getByTestId('submission').textContent()).toContain('Week 12 is not needed for A');
+    expect(await page.getByTestId('chamber').textContent()).toMatch(/4\d\.\d+ °C/);
+    expect(await page.getByTestId('chamber').textContent()).toContain('Outside 45 ± 2 °C');
+    expect(await a.getByTestId('proposed').textContent()).toContain('6 months');
+    expect(await a.getByTestId('suggested').textContent()).toMatch(/\d+ months|no figure/);
+    expect(await b.getByTestId('failures').textContent()).toMatch(/45 °C \d+: first failure at Week 8 \(Separation/);
+    expect(await a.getByTestId('failures').textContent()).not.toContain('first failure');
+    expect(await a.getByTestId('review-reasons').locator('tbody tr').count()).toBeGreaterThan(2);
+    expect(await b.getByTestId('photos-B').locator('img').count()).toBe(3);
+    expect(await a.getByTestId('charts-A').getAttribute('href')).toBe(`/studies/${study.id}/analysis`);
+    await page.waitForFunction(() => [...document.images].every((i) => i.complete && i.naturalWidth > 0));
+    await noBadText(page);
+    await page.screenshot({ path: join(SHOTS, 'review-desktop.png') });
+    await page.screenshot({ path: join(SHOTS, 'review-desktop-full.png'), fullPage: true });
+
+    // Variant A: released, 6 months, PAO 6; the label dating follows live (30 months or less: best-before).
+    await a.getByTestId('decision-A-outcome-released').click();
+    await a.getByTestId('decision-A-shelf-life').locator('input').fill('6');
+    await a.getByTestId('decision-A-pao').locator('input').fill('6');
+    await a.getByTestId('decision-A-comment').fill('Provisional: stable at every condition through week 8; the 45 °C projection gives 7.4 months. Review again at month 6 of the 25 °C study.');
+    await a.getByTestId('decision-A-comment').blur();
+    // EU Regulation 1223/2009 Art. 19(1)(c): 30 months or less needs a date of minimum durability.
+    await expect.poll(() => a.getByTestId('decision-A-label-dating').textContent()).toContain('Best-before date on the pack');
+    expect(await a.getByTestId('decision-A-label-dating').textContent()).toContain('19(1)(c)');
+    expect(await a.getByTestId('decision-A-label-dating').textContent()).toContain("regulatory adviser has the last word");
+    // 36 months would switch to the period after opening.
+    await a.getByTestId('decision-A-shelf-life').locator('input').fill('36');
+    await a.getByTestId('decision-A-shelf-life').locator('input').blur();
+    await expect.poll(() => a.getByTestId('decision-A-label-dating').textContent()).toContain('Period after opening on the pack');
+    await a.getByTestId('decision-A-shelf-life').locator('input').fill('6');
+    await a.getByTestId('decision-A-shelf-life').locator('input').blur();
+    await expect.poll(() => a.getByTestId('decision-A-label-dating').textContent()).toContain('Best-before date on the pack');
+
+    await a.getByTestId('decision-A-sign').click();
+    const dialog = page.getByTestId('sign-dialog-body');
+    await dialog.waitFor();
+    expect(await page.getByTestId('sign-meaning').textContent()).toBe('approved for release');
+    expect(await dialog.textContent()).toContain('SHA-256');
+    await page.waitForTimeout(350);
+    await page.screenshot({ path: join(SHOTS, 'review-signing-dialog.png') });
+
+    // A wrong password: refused, shown beside the field, nothing signed.
+    await page.getByTestId('sign-password').fill('not-my-password');
+    await page.getByTestId('sign-confirm').click();
+    await expect.poll(() => dialog.locator('.el-form-item__error').textContent()).toBe('Wrong password');
+    await page.screenshot({ path: join(SHOTS, 'review-signing-wrong-password.png') });
+    expect(await a.getByTestId('signature-block').count()).toBe(0);
+
+    await page.getByTestId('sign-password').fill(DEMO_PASSWORD);
+    await page.getByTestId('sign-confirm').click();
+    const sigA = a.getByTestId('signature-block');
+    await sigA.waitFor();
+    expect(await sigA.getAttribute('data-outcome')).toBe('released');
+    expect(await sigA.getByTestId('signer-name').textContent()).toBe('Maya Lindqvist');
+    expect(await sigA.getByTestId('signature-meaning').textContent()).toBe('approved for release');
+    expect(await sigA.textContent()).toMatch(/SHA-256 ([0-9a-f]{8} ){7}[0-9a-f]{8}/);
+    expect(await sigA.textContent()).toMatch(/\d{4}-\d\d-\d\d \d\d:\d\d:\d\d UTC/);
+    expect(await sigA.textContent()).toContain('Matches the study data as it is now');
+    expect(await a.getByTestId('decision-A-sign').count()).toBe(0); // read-only now
+    expect(await a.getByTestId('supersede-A').count()).toBe(1);
+    await shot(page, sigA, 'review-signature-block.png');
+
+    // Variant B: continue testing, with week 16 added at the 25 °C condition.
+    await b.getByTestId('decision-B-outcome-continue_testing').click();
+    await expect.poll(() => b.getByTestId('decision-B-new-checkpoint').count()).toBe(1);
+    expect(await b.getByTestId('decision-B-new-checkpoint').textContent()).toMatch(/Week 16, due \d{4}-\d\d-\d\d/);
+    await b.getByTestId('decision-B-comment').fill('Separation at 45 °C by week 8: watch 25 °C to week 16 before deciding.');
+    await b.getByTestId('decision-B-sign').click();
+    await dialog.waitFor();
+    expect(await page.getByTestId('sign-meaning').textContent()).toBe('returned for more testing');
+    await page.getByTestId('sign-password').fill(DEMO_PASSWORD);
+    await page.getByTestId('sign-confirm').click();
+    const sigB = b.getByTestId('signature-block');
+    await sigB.waitFor();
+    expect(await sigB.getAttribute('data-outcome')).toBe('continue_testing');
+    await expect.poll(() => page.getByTestId('review-status').getAttribute('data-status')).toBe('running');
+    expect(await page.getByTestId('status-note').textContent()).toContain('Back in testing');
+    expect(await page.getByTestId('decision-history').locator('li').count()).toBe(2);
+
+    // The queue no longer lists the study.
+    await page.getByTestId('nav-reviews').click();
+    await page.getByTestId('reviews-empty').waitFor();
+    expect(await page.getByTestId(`queue-${study.id}`).count()).toBe(0);
+
+    // The review page (reopened) shows both outcomes; the study got its new checkpoint.
+    await page.goto(`${rig.baseUrl}/reviews/${study.id}`);
+    await page.getByTestId('variant-A').getByTestId('signature-block').waitFor();
+    expect(await page.getByTestId('variant-A').getByTestId('signature-meaning').textContent()).toBe('approved for release');
+    expect(await page.getByTestId('variant-B').getByTestId('signature-meaning').textContent()).toBe('returned for more testing');
+    const detail = (await owner.get(`/api/studies/${study.id}`)).body.study as StudyDetail;
+    expect(detail.checkpoints.some((c) => c.label === 'Week 16')).toBe(true);
+    await noBadText(page);
+    await page.screenshot({ path: join(SHOTS, 'review-decided-full.png'), fullPage: true });
+
+    // The only console error is the refused password's 403.
+    expect(problems.filter((p) => !/status of 403/.test(p))).toEqual([]);
+    await page.close();
+  });
+
+  it('the PDF and the print-friendly report', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.owner);
+
+    // The PDF with the owner's cookies; its first two pages rendered for a look.
+    const res = await page.request.get(`${rig.baseUrl}/api/studies/${study.id}/report.pdf`);
+    expect(res.status()).toBe(200);
+    const pdf = await res.body();
+    expect(pdf.subarray(0, 5).toString()).toBe('%PDF-');
+    const dir = mkdtempSync(join(tmpdir(), 'kw-review-pdf-'));
+    writeFileSync(join(dir, 'report.pdf'), pdf);
+    const started = Date.now();
+    execFileSync('pdftoppm', ['-png', '-r', '70', '-f', '1', '-l', '2', join(dir, 'report.pdf'), join(dir, 'page')]);
+    console.info(`pdf: ${pdf.length} bytes, pages 1-2 rendered in ${Date.now() - started} ms`);
+    const pngs = readdirSync(dir).filter((f) => f.endsWith('.png')).sort();
+    expect(pngs).toHaveLength(2);
+    pngs.forEach((f, i) => copyFileSync(join(dir, f), join(SHOTS, `review-pdf-page-${i + 1}.png`)));
+
+    // The web report: same sections, buttons to print and download.
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/report`);
+    const report = page.getByTestId('report');
+    await report.waitFor();
+    await expect.poll(() => report.locator('h2').allTextContents()).toEqual([
+      'Variants and formulas (as made in each lot)',
+      'Storage conditions and chamber records',
+      'Schedule',
+      'Attributes and acceptance criteria',
+      'Charts',
+      'Suggested shelf life and reasons',
+      'Every observation',
+      'Photos at key checkpoints',
+      'Decision and signatures',
+      'Audit summary',
+    ]);
+    await expect.poll(() => report.locator('.report-chart').count()).toBe(2); // pH and viscosity
+    expect(await report.textContent()).toContain('approved for release');
+    expect(await report.textContent()).toContain('returned for more testing');
+    expect(await report.textContent()).toContain('Calendula'); // formula lines from the lot's snapshot
+    expect(await page.getByTestId('report-pdf').getAttribute('href')).toBe(`/api/studies/${study.id}/report.pdf`);
+    expect(await page.getByTestId('report-csv').getAttribute('href')).toBe(`/api/studies/${study.id}/observations.csv`);
+    await page.waitForFunction(() => [...document.images].every((i) => i.complete && i.naturalWidth > 0));
+    await noBadText(page);
+    await page.screenshot({ path: join(SHOTS, 'report-web.png') });
+    await page.screenshot({ path: join(SHOTS, 'report-web-full.png'), fullPage: true });
+
+    // Printing hides the app around the report.
+    await page.emulateMedia({ media: 'print' });
+    expect(await page.locator('header.bar').isVisible()).toBe(false);
+    expect(await page.getByTestId('report-print').isVisible()).toBe(false);
+    // The browser's own print to PDF: A4, page numbers; its first two pages rendered for a look.
+    await page.pdf({ path: join(dir, 'web-print.pdf'), preferCSSPageSize: true, printBackground: true });
+    execFileSync('pdftoppm', ['-png', '-r', '70', '-f', '1', '-l', '3', join(dir, 'web-print.pdf'), join(dir, 'web')]);
+    const webPages = readdirSync(dir).filter((f) => f.startsWith('web') && f.endsWith('.png')).sort();
+    expect(webPages.length).toBeGreaterThanOrEqual(2);
+    webPages.forEach((f, i) => copyFileSync(join(dir, f), join(SHOTS, `report-web-print-page-${i + 1}.png`)));
+    const printed = execFileSync('pdftotext', ['-layout', join(dir, 'web-print.pdf'), '-']).toString();
+    expect(printed).not.toContain('Sign out'); // no app bar on paper
+    expect(printed).toMatch(/Page 1 of \d+/);
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
+  it('releases with ready-phrase conditions, rejects the other variant, then supersedes with a reason', async () => {
+    // A second, small study with day 0 recorded (as in tests/api/reviews.test.ts runningStudy()).
+    const cat = await makeCatalogue(rig.t.db, rig.t.labs[0].id, 'Rose body lotion');
+    const plan = { ...planFor(cat, addDays(today, -3)), title: 'Rose body lotion: quick check' };
+    const id = (await formulator.post('/api/studies', plan)).body.study.id as number;
+    const small = (await formulator.post(`/api/studies/${id}/start`)).body.study as StudyDetail;
+    for (const cp of small.checkpoints.filter((c) => c.label === 'Day 0')) {
+      for (const s of small.samples.filter((x) => x.studyConditionId === cp.studyConditionId)) {
+        const res = await technician.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, {
+          entries: small.attributes.map((x) => ({ studyAttributeId: x.id, value: x.code === 'ph' ? 5.5 : x.code === 'separation' ? 0 : 'no_change' })),
+        });
+        expect(res.status).toBe(200);
+      }
+    }
+    const variantIds = [...new Set(small.batches.map((b) => b.variant.id))];
+    const sub = await formulator.post(`/api/studies/${id}/submit`, {
+      summary: 'Day 0 only: a quick check before a larger study.',
+      proposals: variantIds.map((variantId) => ({ variantId, shelfLifeMonths: 12, paoMonths: 6 })),
+      openCheckpointsReason: 'Quick check; the full study follows',
+    });
+    expect(sub.status, JSON.stringify(sub.body)).toBe(200);
+
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.owner);
+    await page.goto(`${rig.baseUrl}/reviews/${id}`);
+    const a = page.getByTestId('variant-A');
+    const b = page.getByTestId('variant-B');
+    await a.waitFor();
+    const sign = async () => {
+      await page.getByTestId('sign-dialog-body').waitFor();
+      await page.getByTestId('sign-password').fill(DEMO_PASSWORD);
+      await page.getByTestId('sign-confirm').click();
+    };
+
+    // A: released with conditions, one ready phrase added with a click.
+    await a.getByTestId('decision-A-outcome-released_with_conditions').click();
+    await a.getByTestId('decision-A-phrase').filter({ hasText: 'Protect from freezing.' }).click();
+    expect(await a.getByTestId('decision-A-conditions').inputValue()).toBe('Protect from freezing.');
+    await a.getByTestId('decision-A-phrase').filter({ hasText: 'Store below 25 °C.' }).click();
+    expect(await a.getByTestId('decision-A-conditions').inputValue()).toBe('Protect from freezing. Store below 25 °C.');
+    await a.getByTestId('decision-A-phrase').filter({ hasText: 'Store below 25 °C.' }).click(); // a second click takes it out
+    expect(await a.getByTestId('decision-A-conditions').inputValue()).toBe('Protect from freezing.');
+    expect(await a.getByTestId('decision-A-shelf-life').locator('input').inputValue()).toBe('12'); // from the proposal
+    await a.getByTestId('decision-A-sign').click();
+    await sign();
+    await a.getByTestId('signature-block').waitFor();
+    expect(await a.getByTestId('signature-block').textContent()).toContain('Protect from freezing.');
+
+    // B: not released; without a comment it still signs (the comment is optional), meaning "rejected".
+    await b.getByTestId('decision-B-outcome-not_released').click();
+    expect(await b.getByTestId('decision-B-shelf-life').count()).toBe(0);
+    await b.getByTestId('decision-B-comment').fill('Day-0 viscosity far below the target; reformulate.');
+    await b.getByTestId('decision-B-sign').click();
+    expect(await page.getByTestId('sign-meaning').textContent()).toBe('rejected');
+    await sign();
+    await b.getByTestId('signature-block').waitFor();
+    await expect.poll(() => page.getByTestId('review-status').getAttribute('data-status')).toBe('decided');
+
+    // Supersede A: a reason is required, then the new decision replaces the old, which stays struck through.
+    await a.getByTestId('supersede-A').click();
+    await a.getByTestId('decision-A-sign').click();
+    await expect.poll(() => a.locator('.el-form-item__error').first().textContent()).toBe('Say why this decision replaces the earlier one');
+    await a.getByTestId('decision-A-supersede-reason').fill('Freeze-thaw result came in after signing: the condition is not needed');
+    await a.getByTestId('decision-A-outcome-released').click();
+    await a.getByTestId('decision-A-shelf-life').locator('input').fill('9');
+    await a.getByTestId('decision-A-shelf-life').locator('input').blur();
+    await a.getByTestId('decision-A-sign').click();
+    await sign();
+    await expect.poll(() => a.getByTestId('signature-block').getAttribute('data-outcome')).toBe('released');
+    expect(await a.getByTestId('signature-block').textContent()).toContain('Freeze-thaw result came in after signing');
+    const history = page.getByTestId('decision-history');
+    expect(await history.locator('li').count()).toBe(3);
+    const old = history.locator('li.superseded');
+    expect(await old.count()).toBe(1);
+    expect(await old.textContent()).toContain('Released with conditions');
+    expect(await old.textContent()).toMatch(/Replaced by no\. \d+, signed by Maya Lindqvist on .* UTC\. Reason: Freeze-thaw result came in after signing/);
+    expect(await old.locator('.struck').first().evaluate((el) => getComputedStyle(el).textDecorationLine)).toBe('line-through');
+    await noBadText(page);
+    await shot(page, history, 'review-decision-history.png');
+    await page.screenshot({ path: join(SHOTS, 'review-superseded-full.png'), fullPage: true });
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
+  it('a technician reads the report without the analysis and the decisions, with a note where they were', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.technician);
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/report`);
+    await page.getByTestId('report').waitFor();
+    await page.getByTestId('analysis-omitted').waitFor();
+    const text = await page.getByTestId('report').textContent();
+    expect(text).toContain('Left out: decisions and signatures are shown to formulators and owners.');
+    expect(text).toContain('Every observation');
+    expect(await page.locator('.grid-table.obs tbody tr').count()).toBeGreaterThan(20);
+    // A technician cannot open the review page.
+    await page.waitForLoadState('networkidle');
+    await page.goto(`${rig.baseUrl}/reviews/${study.id}`);
+    await page.waitForURL(/not-allowed/);
+    await page.waitForLoadState('networkidle');
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+});
