@@ -13,56 +13,11 @@ import type { StoredVerdict } from '../../shared/domain';
 import type { Db } from '../db/client';
 import { chamberLogs, chamberReadings, checkpoints, observations, samples, studyAttributes } from '../db/schema';
 import { studyDetail } from './studies';
+import type { Regression, Series, SeriesPoint, StudyAnalysis } from '../../shared/schemas/analysis';
 import { valueOf } from './records';
 import { attributes } from '../db/schema';
 
-export interface SeriesPoint {
-  checkpointId: number;
-  label: string;
-  months: number;
-  dueDate: string;
-  value: number | string | boolean | null;
-  verdict: StoredVerdict;
-  sampleCode: string;
-}
-
-export interface Series {
-  studyAttributeId: number;
-  variantId: number;
-  batchId: number;
-  lotCode: string;
-  studyConditionId: number;
-  points: SeriesPoint[];
-}
-
-export interface Regression {
-  studyAttributeId: number;
-  variantId: number;
-  studyConditionId: number;
-  limit: AcceptanceLimit;
-  months: number | null;
-  status: string;
-  message: string;
-  model: string;
-  lines: ChartLine[];
-  levelPerSide: number | null;
-  tValue: number | null;
-}
-
-export interface StudyAnalysis {
-  studyId: number;
-  q10: number;
-  variants: { id: number; code: string; name: string; lots: string[] }[];
-  conditions: { id: number; name: string; kind: string; role: string; setpointC: number | null; location: string; mkt: { mktC: number; minC: number; maxC: number; meanC: number; readings: number; from: string; to: string } | null }[];
-  attributes: { id: number; code: string; name: string; kind: string; unit: string | null; decimals: number; criterion: Criterion; scale: { grade: number; label: string }[] | null }[];
-  series: Series[];
-  /** Absolute limits per variant and attribute (relative criteria resolved from the variant's mean day-0 value). */
-  limits: { studyAttributeId: number; variantId: number; limit: AcceptanceLimit; basis: string }[];
-  regressions: Regression[];
-  deltaE: { variantId: number; studyConditionId: number; sampleCode: string; points: { label: string; months: number; de76: number | null; de00: number | null }[] }[];
-  firstFailures: { variantId: number; studyConditionId: number; label: string | null; months: number | null; attributes: string[] }[];
-  suggestions: { variantId: number; result: SuggestResult }[];
-}
+export type { Regression, Series, SeriesPoint, StudyAnalysis } from '../../shared/schemas/analysis';
 
 /** Months from day 0 to a checkpoint's nominal date (1 month = 30.4375 days). */
 const monthsOf = (start: string, cp: { offsetUnit: string; offsetN: number; dueDate: string }) =>

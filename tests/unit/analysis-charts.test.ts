@@ -25,7 +25,7 @@ function fixture(): StudyAnalysis {
     { id: 2, code: 'B', name: '5 % emulsifier + xanthan', lots: ['L-B'] },
   ];
   const conditions = [
-    { id: 10, name: '45 °C', kind: 'constant', role: 'accelerated', setpointC: 45, location: 'oven 2', mkt: { mktC: 45.21, readings: 2184, from: '2026-09-01', to: '2026-12-01' } },
+    { id: 10, name: '45 °C', kind: 'constant', role: 'accelerated', setpointC: 45, location: 'oven 2', mkt: { mktC: 45.21, minC: 43.9, maxC: 46.2, meanC: 45.1, readings: 2184, from: '2026-09-01', to: '2026-12-01' } },
     { id: 11, name: '4 °C control', kind: 'constant', role: 'control', setpointC: 4, location: 'fridge 1', mkt: null },
     { id: 12, name: '25 °C / 60 % RH', kind: 'constant', role: 'real_time', setpointC: 25, location: 'cabinet', mkt: null },
     { id: 13, name: 'Freeze-thaw', kind: 'cycling', role: 'stress', setpointC: null, location: 'freezer', mkt: null },

@@ -1,0 +1,99 @@
+/**
+ * The analysis of a study as GET /api/studies/:id/analysis answers it (`{ analysis }`):
+ * the server builds it (server/services/analysis.ts), the client draws it.
+ */
+import type { Criterion } from '../compute/criteria';
+import type { AcceptanceLimit, ChartLine } from '../compute/shelf-life';
+import type { SuggestResult } from '../compute/suggest';
+import type { AttributeScaleStep, StoredVerdict } from '../domain';
+
+export interface SeriesPoint {
+  checkpointId: number;
+  label: string;
+  months: number;
+  dueDate: string;
+  value: number | string | boolean | null;
+  verdict: StoredVerdict;
+  sampleCode: string;
+}
+
+/** Every result of one attribute for one batch at one condition. */
+export interface Series {
+  studyAttributeId: number;
+  variantId: number;
+  batchId: number;
+  lotCode: string;
+  studyConditionId: number;
+  points: SeriesPoint[];
+}
+
+export interface Regression {
+  studyAttributeId: number;
+  variantId: number;
+  studyConditionId: number;
+  limit: AcceptanceLimit;
+  months: number | null;
+  status: string;
+  message: string;
+  model: string;
+  lines: ChartLine[];
+  levelPerSide: number | null;
+  tValue: number | null;
+}
+
+export interface AnalysisVariant {
+  id: number;
+  code: string;
+  name: string;
+  lots: string[];
+}
+
+export interface AnalysisCondition {
+  id: number;
+  name: string;
+  kind: string;
+  role: string;
+  setpointC: number | null;
+  location: string;
+  mkt: { mktC: number; minC: number; maxC: number; meanC: number; readings: number; from: string; to: string } | null;
+}
+
+export interface AnalysisAttribute {
+  id: number;
+  code: string;
+  name: string;
+  kind: string;
+  unit: string | null;
+  decimals: number;
+  criterion: Criterion;
+  scale: AttributeScaleStep[] | null;
+}
+
+export interface DeltaESeries {
+  variantId: number;
+  studyConditionId: number;
+  sampleCode: string;
+  points: { label: string; months: number; de76: number | null; de00: number | null }[];
+}
+
+export interface FirstFailure {
+  variantId: number;
+  studyConditionId: number;
+  label: string | null;
+  months: number | null;
+  attributes: string[];
+}
+
+export interface StudyAnalysis {
+  studyId: number;
+  q10: number;
+  variants: AnalysisVariant[];
+  conditions: AnalysisCondition[];
+  attributes: AnalysisAttribute[];
+  series: Series[];
+  limits: { studyAttributeId: number; variantId: number; limit: AcceptanceLimit; basis: string }[];
+  regressions: Regression[];
+  deltaE: DeltaESeries[];
+  firstFailures: FirstFailure[];
+  suggestions: { variantId: number; result: SuggestResult }[];
+}
