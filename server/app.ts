@@ -105,7 +105,7 @@ export function createApp(deps: AppDeps) {
     res.set('Cache-Control', 'no-store');
     next();
   });
-  api.use('/health', healthRoute(db, pool));
+  api.use('/health', healthRoute(db));
   api.use(csrfGuard(config.PUBLIC_URL ? new URL(config.PUBLIC_URL).origin : undefined));
   api.use(
     '/auth',

@@ -153,7 +153,6 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
       sampleRows.push({ id, batch: b });
     }
     for (const s of schedule) {
-      const windowEnd = addDays(s.dueDate, s.windowAfter);
       const leftOpen = spec.leaveOpen?.some((l) => l.condition === ci && l.label === s.label);
       // Recorded when its due date has come, unless left open on purpose.
       const recorded = s.dueDate <= today && !leftOpen;
@@ -174,7 +173,6 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
           closedBy: recorded ? people.technician : null,
         })
         .$returningId();
-      void windowEnd;
       if (!recorded) continue;
       const day = Math.round((Date.parse(s.dueDate) - Date.parse(startDate)) / 86_400_000);
       for (const smp of sampleRows) {

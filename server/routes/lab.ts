@@ -2,7 +2,7 @@ import { eq, sql } from 'drizzle-orm';
 import { Router } from 'express';
 import { requireMember } from '../auth/guards';
 import { member } from '../auth/session-user';
-import type { Db, Pool } from '../db/client';
+import type { Db } from '../db/client';
 import { labs } from '../db/schema';
 
 export function labRoutes(db: Db): Router {
@@ -15,7 +15,7 @@ export function labRoutes(db: Db): Router {
   return r;
 }
 
-export function healthRoute(db: Db, _pool: Pool): Router {
+export function healthRoute(db: Db): Router {
   const r = Router();
   r.get('/', async (_req, res) => {
     try {

@@ -152,7 +152,6 @@ export const amendmentInput = z.discriminatedUnion('kind', [
   z.strictObject({ kind: z.literal('other'), reason }),
 ]);
 export type AmendmentInput = z.infer<typeof amendmentInput>;
-void AMENDMENT_KINDS;
 
 export const missedInput = z.strictObject({ reason });
 

@@ -173,8 +173,6 @@ describe('bad recordings are refused and nothing partial is kept', () => {
   });
 
   it('a sample with a checkpoint of another condition, or of another lab, is not found', async () => {
-    const other = await makeCatalogue(t.db, t.labs[1].id, 'Foreign');
-    void other;
     const fridgeCp = cp(study, 'Week 1', 0);
     const ovenSample = sampleIn(study, 1);
     expect((await put(technician, ovenSample.code, fridgeCp.id, { entries: [{ studyAttributeId: attr(study, 'mass'), value: 1 }] })).status).toBe(404);
