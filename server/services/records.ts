@@ -236,7 +236,13 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
       )
       .orderBy(desc(checkpoints.dueDate)),
     db
-      .select({ id: samples.id, code: samples.code, n: sql<number>`(SELECT count(*) FROM ${observations} WHERE ${observations.sampleId} = ${samples.id} AND ${observations.checkpointId} = ${checkpointId} AND ${observations.voided} = false)` })
+      .select({
+        id: samples.id,
+        code: samples.code,
+        // Qualified by hand: drizzle leaves columns of a one-table select unqualified, and a bare `id`
+        // inside the subquery would name observations.id, not the sample's.
+        n: sql<number>`(SELECT count(*) FROM ${observations} AS o WHERE o.sample_id = ${sql.raw('`samples`.`id`')} AND o.checkpoint_id = ${checkpointId} AND o.voided = false)`,
+      })
       .from(samples)
       .where(eq(samples.studyConditionId, ctx.sample.studyConditionId))
       .orderBy(asc(samples.labelOrder)),

@@ -99,14 +99,17 @@ describe('recording a checkpoint', () => {
     expect(byCode.mass.verdict).toBe('fail'); // above 60
     expect(res.body.sheet.attributes[0].baseline).toMatchObject({ value: 5.3, label: 'Day 0' });
     expect(res.body.sheet.attributes[0].previous).toMatchObject({ value: 5.3, label: 'Day 0' });
-
+    // The walk through the checkpoint's samples: this one is complete, the next is not yet.
     const s2 = sampleIn(study, 1, 1);
+    expect(res.body.sheet.siblings).toEqual(expect.arrayContaining([{ code: s.code, complete: true }, { code: s2.code, complete: false }]));
+
     const ok = await put(technician, s2.code, w1.id, {
       entries: fullEntries(study, { ph: 5.8, viscosity: 10000, separation: 1, odor: 'slight', pack: true, mass: 40 }),
     });
     const ok2 = Object.fromEntries(ok.body.sheet.attributes.map((a: { attribute: { code: string }; current: { verdict: string } }) => [a.attribute.code, a.current.verdict]));
     // pH 5.8 vs its own day 0 of 5.4: 0.4 passes; viscosity -16.7 % passes; boundaries pass.
     expect(ok2).toEqual({ ph: 'pass', viscosity: 'pass', separation: 'pass', odor: 'pass', pack_integrity: 'pass', mass: 'pass' });
+    expect(ok.body.sheet.siblings.filter((x: { complete: boolean }) => x.complete).map((x: { code: string }) => x.code).sort()).toEqual([s.code, s2.code].sort());
     const [audits] = await t.db.select({ n: sql<number>`count(*)` }).from(auditLog).where(eq(auditLog.entity, 'observation'));
     expect(Number(audits.n)).toBe(24); // one audit row per observation
   });
