@@ -83,7 +83,7 @@ async function smallTargets(page: Page, scope: string): Promise<string[]> {
 }
 
 describe('Bench on a tablet', () => {
-  it('a technician sees the work grouped by location, opens a sample, marks a missed window', async () => {
+  it('a technician sees the work grouped by location, marks a missed window, opens a sample to record and its page', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const problems = watchPage(page);
     await signIn(page, DEMO.technician);
@@ -134,9 +134,13 @@ describe('Bench on a tablet', () => {
     await expect.poll(() => page.getByTestId(`bench-checkpoint-${day0.id}`).count()).toBe(0);
     expect(await page.getByTestId('count-overdue').textContent()).toMatch(/1\s*overdue/);
 
-    // A sample button opens the sample page.
+    // A sample button opens the Record screen for that sample at that checkpoint, which links to the sample page.
     const sample = study.samples.find((s) => s.studyConditionId === study.conditions[1].id)!;
     await page.getByTestId(`bench-checkpoint-${week1.id}`).getByTestId(`bench-sample-${sample.code}`).click();
+    await page.waitForURL(new RegExp(`/samples/${sample.code}/checkpoints/${week1.id}$`));
+    await expect.poll(() => page.getByTestId('record-sample-code').textContent()).toBe(sample.code);
+    expect(await page.getByTestId('record-checkpoint').textContent()).toBe('Week 1');
+    await page.getByTestId('record-sample-link').click();
     await page.waitForURL(new RegExp(`/samples/${sample.code}$`));
     await expect.poll(() => page.getByTestId('sample-code').textContent()).toBe(sample.code);
     const text = (await page.locator('.sample-page').textContent()) ?? '';

@@ -140,15 +140,9 @@ describe('Record on a tablet', () => {
 
     await signInAs(page, rig.baseUrl, DEMO.technician);
     await page.waitForSelector(`[data-testid="bench-checkpoint-${week1.id}"]`);
-    // Open the first sample at Week 1 from the Bench when it links to the Record screen.
-    const recordLink = page.getByTestId(`bench-checkpoint-${week1.id}`).locator(`a[href$="/samples/${first.code}/checkpoints/${week1.id}"]`);
-    if ((await recordLink.count()) > 0) await recordLink.first().click();
-    // TODO: the Bench's sample buttons lead to the sample page for now; once they (or the sample page) link to the
-    // Record screen, drop this direct navigation.
-    else {
-      await quiet(page);
-      await page.goto(`${rig.baseUrl}/samples/${first.code}/checkpoints/${week1.id}`);
-    }
+    // The technician taps the first sample under Week 1 on the Bench: its Record screen at that checkpoint opens.
+    await quiet(page);
+    await page.getByTestId(`bench-checkpoint-${week1.id}`).getByTestId(`bench-sample-${first.code}`).click();
     await page.waitForURL(new RegExp(`/samples/${first.code}/checkpoints/${week1.id}$`));
     await expect.poll(() => page.getByTestId('record-sample-code').textContent()).toBe(first.code);
 

@@ -1,11 +1,13 @@
 /**
  * Release review in headless Chromium: a running study with results, chamber logs and
- * photos is built through the API and submitted by the formulator (through the API: the
- * study page mounts SubmitForm once the lead wires it in); the owner opens Reviews, opens
- * the study, signs a release for variant A (after one wrong password) and returns variant B
- * for more testing with an added checkpoint. The queue no longer lists the study and the
- * review page shows both outcomes. Then the PDF (first two pages rendered with pdftoppm)
- * and the print-friendly web report. Invented data: A holds; B separates at 45 °C by week 8.
+ * photos is built through the API; the formulator signs in, opens the study page's
+ * "Submit for review" tab, fills the proposals, the summary and the reason for the open
+ * checkpoints (each refused beside its field while missing) and submits, and the page shows
+ * the study in review. The owner opens Reviews, opens the study, signs a release for variant A
+ * (after one wrong password) and returns variant B for more testing with an added checkpoint.
+ * The queue no longer lists the study and the review page shows both outcomes. Then the PDF
+ * (first two pages rendered with pdftoppm) and the print-friendly web report. Invented data:
+ * A holds; B separates at 45 °C by week 8.
  */
 import { execFileSync } from 'node:child_process';
 import { copyFileSync, mkdtempSync, readdirSync, writeFileSync } from 'node:fs';
@@ -143,16 +145,6 @@ beforeAll(async () => {
       .attach('file', Buffer.from(hourlyLog(start, 56 * 24, setC), 'utf8'), `logger-${setC}.csv`);
     expect(res.status, JSON.stringify(res.body)).toBe(201);
   }
-
-  // The formulator submits; week 12 is still open, so a reason is needed.
-  const variantIds = [...new Set(study.batches.map((b) => b.variant.id))];
-  const submitted = await formulator.post(`/api/studies/${study.id}/submit`, {
-    summary:
-      'A held at every condition through week 8: pH and viscosity well inside the limits, no separation. B separated at 45 °C by week 8 (grade 2) with a slight odour change; its 25 °C results are fine. I propose releasing A with a provisional 6 months (the 45 °C projection gives about 7) and testing B further.',
-    proposals: variantIds.map((variantId) => ({ variantId, shelfLifeMonths: variantId === variantB ? null : 6, paoMonths: variantId === variantB ? null : 6 })),
-    openCheckpointsReason: 'Week 12 is not needed for A; B goes on in any case',
-  });
-  expect(submitted.status, JSON.stringify(submitted.body)).toBe(200);
 }, 240_000);
 afterAll(async () => rig?.close());
 
@@ -173,6 +165,87 @@ async function noBadText(page: Page) {
   const text = await page.locator('main').innerText();
   expect(text).not.toMatch(/\bNaN\b|\bundefined\b|\bnull\b|Infinity|\[object/);
 }
+
+describe('Submit for review', () => {
+  it('the formulator submits the running study from its page; the page shows it in review', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.formulator);
+
+    // Studies, then the study, then its "Submit for review" tab.
+    await page.getByTestId('nav-studies').click();
+    await page.getByTestId('studies-table').getByRole('link', { name: study.title }).click();
+    await page.waitForURL(new RegExp(`/studies/${study.id}(\\?.*)?$`));
+    await expect.poll(() => page.getByTestId('study-status').getAttribute('data-status')).toBe('running');
+    await page.getByRole('tab', { name: 'Submit for review' }).click();
+    await page.waitForURL(/[?&]tab=submit\b/);
+    const form = page.getByTestId('submit-form');
+    await form.getByTestId('submit-summary').waitFor();
+    // One row per variant, each with the analysis's suggestion; week 12 is still open, so a reason is asked for.
+    expect(await form.getByTestId('proposal-A').textContent()).toMatch(/Suggested|No suggested figure/);
+    expect(await form.getByTestId('proposal-B').count()).toBe(1);
+    expect(await form.getByTestId('submit-open-reason').count()).toBe(1);
+
+    // A: 6 months, 6 months after opening. B: no shelf life proposed (it goes on testing).
+    await form.getByTestId('proposal-A-shelf-life').locator('input').fill('6');
+    await form.getByTestId('proposal-A-pao').locator('input').fill('6');
+    await form.getByTestId('proposal-B-shelf-life').locator('input').fill('');
+    await form.getByTestId('proposal-B-pao').locator('input').fill('');
+    await form.getByTestId('proposal-B-pao').locator('input').blur();
+    expect(await form.getByTestId('proposal-B-shelf-life').locator('input').inputValue()).toBe('');
+
+    // Without a summary, then without the reason for the open checkpoints: each refused beside its field, nothing sent.
+    await form.getByTestId('submit-for-review').click();
+    await expect.poll(() => form.locator('.el-form-item__error').allTextContents()).toContain('Write a short summary for the reviewer (at least 10 characters)');
+    await form
+      .getByTestId('submit-summary')
+      .fill(
+        'A held at every condition through week 8: pH and viscosity well inside the limits, no separation. B separated at 45 °C by week 8 (grade 2) with a slight odour change; its 25 °C results are fine. I propose releasing A with a provisional 6 months (the 45 °C projection gives about 7) and testing B further.',
+      );
+    await form.getByTestId('submit-for-review').click();
+    await expect.poll(() => form.locator('.el-form-item__error').allTextContents()).toEqual([expect.stringMatching(/checkpoint\(s\) still open: give a reason to end early/)]);
+    await form.getByTestId('submit-open-reason').fill('Week 12 is not needed for A; B goes on in any case');
+    await page.evaluate(() => window.scrollTo(0, 0)); // the pinned app bar stays at the top of a full-page shot
+    await page.waitForTimeout(300);
+    await page.screenshot({ path: join(SHOTS, 'study-submit-tab.png'), fullPage: true });
+    expect((await formulator.get(`/api/studies/${study.id}`)).body.study.status).toBe('running');
+
+    await form.getByTestId('submit-for-review').click();
+    await expect.poll(() => page.getByTestId('study-status').getAttribute('data-status')).toBe('in_review');
+    expect(await page.getByTestId('study-status').textContent()).toContain('In review');
+    // The tab is gone with the running status; the page falls back to the grid.
+    expect(await page.getByRole('tab', { name: 'Submit for review' }).count()).toBe(0);
+    await page.waitForSelector('[data-testid="checkpoint-grid"] table');
+    await page.waitForLoadState('networkidle');
+    // Grid is the selected tab, and its underline has slid under it (wait for the slide to end before the shot).
+    expect(await page.getByRole('tab', { name: 'Grid' }).getAttribute('aria-selected')).toBe('true');
+    await expect
+      .poll(() =>
+        page.evaluate(() => {
+          const bar = document.querySelector<HTMLElement>('.study-page .el-tabs__active-bar')!;
+          const grid = document.querySelector<HTMLElement>('.study-page #tab-grid')!;
+          const under = grid.offsetLeft + Number.parseFloat(getComputedStyle(grid).paddingLeft);
+          return Math.round(new DOMMatrix(getComputedStyle(bar).transform).m41 - under);
+        }),
+      )
+      .toBe(0);
+    await page.screenshot({ path: join(SHOTS, 'study-in-review.png') });
+
+    // What the server stored is what was typed.
+    const review = (await formulator.get(`/api/studies/${study.id}/review`)).body.review;
+    const byCode = new Map<number, string>(review.variants.map((v: { id: number; code: string }) => [v.id, v.code]));
+    expect(
+      review.submission.proposals.map((p: { variantId: number; shelfLifeMonths: number | null; paoMonths?: number | null }) => [byCode.get(p.variantId), p.shelfLifeMonths, p.paoMonths ?? null]),
+    ).toEqual([
+      ['A', 6, 6],
+      ['B', null, null],
+    ]);
+    expect(review.submission.openCheckpointsReason).toBe('Week 12 is not needed for A; B goes on in any case');
+    expect(review.submission.submittedBy).toBe('Theo Okafor');
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+});
 
 describe('Release review', () => {
   it('the owner signs a release for A, returns B for more testing, and the queue empties', async () => {
