@@ -34,7 +34,7 @@ import {
 } from '../db/schema';
 import { conflict, forbidden, HttpError, notFound } from '../http/errors';
 import { audit } from './audit';
-import { studyDetail } from './studies';
+import { checkpointView } from './studies';
 import { photosFor } from './photos';
 
 export interface Recorder {
@@ -196,8 +196,6 @@ export function checkpointOpen(
 
 export async function recordSheet(db: Db, labId: number, code: string, checkpointId: number, today: string): Promise<RecordSheet> {
   const ctx = await context(db, labId, code, checkpointId);
-  const detail = await studyDetail(db, labId, ctx.study.id, today);
-  const cpView = detail.checkpoints.find((c) => c.id === checkpointId)!;
   const [base, current, previous, control, siblings, photos, cond, meta] = await Promise.all([
     baselines(db, ctx),
     db
@@ -260,6 +258,13 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
       .where(eq(batches.id, ctx.sample.batchId)),
   ]);
 
+  // This checkpoint's state and counts, as the study page shows them (recorded of expected readings).
+  const cpView = checkpointView(
+    ctx.checkpoint,
+    today,
+    siblings.reduce((n, x) => n + Number(x.n), 0),
+    siblings.length * ctx.attrs.length,
+  );
   const closedReason = checkpointOpen(ctx.study, ctx.checkpoint, today, false);
   const attrsOut: RecordAttribute[] = ctx.attrs.map(({ sa, a }) => {
     const cur = current.find((c) => c.o.studyAttributeId === sa.id);
