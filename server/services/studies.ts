@@ -516,7 +516,7 @@ export async function markMissed(db: Db, actor: Actor, checkpointId: number, rea
 
 // ------------------------------------------------------------------ read models
 
-function checkpointView(
+export function checkpointView(
   row: typeof checkpoints.$inferSelect,
   today: string,
   recorded: number,
@@ -695,9 +695,9 @@ export async function listStudies(db: Db, labId: number, today: string, status?:
  * The Bench: open checkpoints of running studies whose window has started or
  * starts within `days`, including overdue ones, grouped by location then condition.
  */
-export async function bench(db: Db, labId: number, today: string, days: number): Promise<BenchResponse> {
-  const until = addDays(today, days);
-  const cps = await db
+/** The Bench's first query: open checkpoints of running studies whose window opens by `until`. Exported for `npm run bench`. */
+export function benchCheckpointsQuery(db: Db, labId: number, until: string) {
+  return db
     .select({
       cp: checkpoints,
       studyTitle: studies.title,
@@ -722,14 +722,11 @@ export async function bench(db: Db, labId: number, today: string, days: number):
       ),
     )
     .orderBy(asc(storageConditions.location), asc(storageConditions.name), asc(checkpoints.dueDate));
+}
 
-  const counts = { overdue: 0, due: 0, upcoming: 0 };
-  if (!cps.length) return { today, until, counts, groups: [] };
-
-  const scIds = [...new Set(cps.map((c) => c.cp.studyConditionId))];
-  const studyIds = [...new Set(cps.map((c) => c.cp.studyId))];
-  const cpIds = cps.map((c) => c.cp.id);
-  const [sampleRows, attrCounts, recorded] = await Promise.all([
+/** The Bench's three follow-up queries (run together): samples, attribute counts, recorded counts. Exported for `npm run bench`. */
+export function benchDetailQueries(db: Db, labId: number, scIds: number[], studyIds: number[], cpIds: number[]) {
+  return [
     db
       .select({ id: samples.id, code: samples.code, scId: samples.studyConditionId, lotCode: batches.lotCode, variantCode: variants.code, order: samples.labelOrder })
       .from(samples)
@@ -747,7 +744,20 @@ export async function bench(db: Db, labId: number, today: string, days: number):
       .from(observations)
       .where(and(inArray(observations.checkpointId, cpIds), eq(observations.voided, false)))
       .groupBy(observations.checkpointId, observations.sampleId),
-  ]);
+  ] as const;
+}
+
+export async function bench(db: Db, labId: number, today: string, days: number): Promise<BenchResponse> {
+  const until = addDays(today, days);
+  const cps = await benchCheckpointsQuery(db, labId, until);
+
+  const counts = { overdue: 0, due: 0, upcoming: 0 };
+  if (!cps.length) return { today, until, counts, groups: [] };
+
+  const scIds = [...new Set(cps.map((c) => c.cp.studyConditionId))];
+  const studyIds = [...new Set(cps.map((c) => c.cp.studyId))];
+  const cpIds = cps.map((c) => c.cp.id);
+  const [sampleRows, attrCounts, recorded] = await Promise.all(benchDetailQueries(db, labId, scIds, studyIds, cpIds));
 
   const groups: BenchResponse['groups'] = [];
   for (const c of cps) {

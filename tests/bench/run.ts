@@ -42,7 +42,7 @@ import type { BenchContext, HttpLoad, Scenario, ScenarioExport } from './scenari
 import { coreScenarios } from './scenarios';
 
 /** More bench modules, run after the core scenarios when the file exists (see scenario.ts for the export). */
-const EXTRA_MODULES = ['./chamber-upload.ts'];
+const EXTRA_MODULES = ['./studies.ts', './chamber-upload.ts'];
 
 const SECONDS = Number(process.env.BENCH_SECONDS ?? 10);
 const WARMUP = Number(process.env.BENCH_WARMUP ?? 2);
