@@ -20,7 +20,8 @@
  * Environment: BENCH_SECONDS, BENCH_WARMUP, BENCH_ONLY=name,name (scenarios to
  * run), BENCH_TMPDIR, BENCH_TRACE=1 (print the SQL one request of each
  * scenario sends, from MariaDB's general log), BENCH_JSON=path (write results),
- * KW_BENCH_POOL (the app's pool size; default createPool's 20, as `npm start`).
+ * KW_BENCH_POOL (the app's pool size; default createPool's 20, as `npm start`), BENCH_PROFILE=dir
+ * (the app server writes a V8 CPU profile there when it stops; open it in Chromium's DevTools).
  * A scenario that fails is reported and skipped; the exit code is then 1.
  */
 import { spawn, type ChildProcess } from 'node:child_process';
@@ -90,7 +91,8 @@ function checkAbort() {
 
 // ---- the app under test, in a child process -----------------------------------------------
 async function startServer(env: Record<string, string>): Promise<{ port: number; child: ChildProcess }> {
-  const child = spawn(process.execPath, ['--import', 'tsx', SERVER_ENTRY], {
+  const profile = process.env.BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.BENCH_PROFILE}`] : [];
+  const child = spawn(process.execPath, [...profile, '--import', 'tsx', SERVER_ENTRY], {
     cwd: REPO,
     env: { ...process.env, ...env },
     stdio: ['pipe', 'pipe', 'inherit'],
