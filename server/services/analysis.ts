@@ -51,6 +51,8 @@ async function mktFor(db: Db, labId: number, conditionId: number, from: string, 
       min: sql<number | null>`MIN(${chamberReadings.tempC})`,
       max: sql<number | null>`MAX(${chamberReadings.tempC})`,
       mean: sql<number | null>`AVG(${chamberReadings.tempC})`,
+      first: sql<string | null>`DATE_FORMAT(MIN(${chamberReadings.at}), '%Y-%m-%d')`,
+      last: sql<string | null>`DATE_FORMAT(MAX(${chamberReadings.at}), '%Y-%m-%d')`,
     })
     .from(chamberReadings)
     .innerJoin(chamberLogs, eq(chamberLogs.id, chamberReadings.logId))
@@ -65,7 +67,7 @@ async function mktFor(db: Db, labId: number, conditionId: number, from: string, 
   const n = Number(row?.n ?? 0);
   const r2 = (x: unknown) => Math.round(Number(x) * 100) / 100;
   return n > 0 && row.mkt != null
-    ? { mktC: r2(row.mkt), minC: r2(row.min), maxC: r2(row.max), meanC: r2(row.mean), readings: n, from, to }
+    ? { mktC: r2(row.mkt), minC: r2(row.min), maxC: r2(row.max), meanC: r2(row.mean), readings: n, from, to, firstOn: String(row.first), lastOn: String(row.last) }
     : null;
 }
 
@@ -213,8 +215,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
       name: c.name,
       kind: c.kind,
       // A control (usually a fridge) is compared against, not projected from: its failures are noted.
-      role: c.role === 'control' ? 'stress' : c.role,
-      onFailure: c.role === 'control' ? 'note' : undefined,
+      role: c.role,
       setpointC: c.setpointC,
       attributes: attrRows.map(({ sa, a }) => ({
         name: a.name,

@@ -34,7 +34,8 @@ export function weeksToMonths(weeks: number): number {
 }
 
 export type ConditionKind = 'constant' | 'cycling' | 'light' | 'mechanical';
-export type ConditionRole = 'real_time' | 'accelerated' | 'stress';
+/** A control (usually a fridge) is the reference the others are compared with: never projected from, its failures only noted. */
+export type ConditionRole = 'real_time' | 'accelerated' | 'stress' | 'control';
 
 /** One sample's result at one checkpoint. */
 export interface SuggestObservation {
@@ -109,6 +110,8 @@ export interface SuggestReason {
   figureMonths: number | null;
   rule: string;
   message: string;
+  /** Gate lines: whether the condition is a control or a stress test. */
+  gateOf?: 'control' | 'stress';
 }
 
 export interface SuggestGate {
@@ -157,10 +160,13 @@ function lastPassing(obs: readonly SuggestObservation[]): { firstFail: number | 
   return { firstFail, lastPass: before.length ? Math.max(...before) : null };
 }
 
+const GATE_RULE = 'Stress test gate: a failure gives a flag, not a figure.';
+const CONTROL_RULE = 'Control: the reference the other conditions are compared with; a failure is noted, not a figure.';
+
 function defaultGate(c: SuggestCondition): { outcome: SuggestGate['outcome']; instruction: string | null } {
   const outcome =
     c.onFailure ??
-    (c.kind === 'cycling' || c.kind === 'light' ? 'storage_instruction' : c.kind === 'mechanical' ? 'block' : 'note');
+    (c.role === 'control' ? 'note' : c.kind === 'cycling' || c.kind === 'light' ? 'storage_instruction' : c.kind === 'mechanical' ? 'block' : 'note');
   if (outcome !== 'storage_instruction') return { outcome, instruction: null };
   const fallback =
     c.kind === 'light'
@@ -190,8 +196,10 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
   const gates: SuggestGate[] = [];
 
   for (const c of conditions) {
-    const isGate = c.kind !== 'constant' || c.role === 'stress';
+    const isGate = c.kind !== 'constant' || c.role === 'stress' || c.role === 'control';
     if (isGate) {
+      const rule = c.role === 'control' ? CONTROL_RULE : GATE_RULE;
+      const gateOf = c.role === 'control' ? ('control' as const) : ('stress' as const);
       const failed = c.attributes.filter((a) => judged(a.observations).some((o) => o.passed === false));
       const n = c.attributes.reduce((s, a) => s + judged(a.observations).length, 0);
       if (failed.length > 0) {
@@ -205,7 +213,7 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
               : 'noted for review; no effect on the figure';
         const message = `${c.name}: ${names.join(', ')} failed; ${effect}.`;
         gates.push({ condition: c.name, kind: c.kind, attributes: names, outcome, instruction, message });
-        reasons.push({ attribute: names.join(', '), condition: c.name, method: 'gate', dataPoints: n, figureMonths: null, rule: 'Stress test gate: a failure gives a flag, not a figure.', message });
+        reasons.push({ attribute: names.join(', '), condition: c.name, method: 'gate', dataPoints: n, figureMonths: null, rule, message, gateOf });
       } else {
         reasons.push({
           attribute: 'all attributes',
@@ -213,7 +221,8 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
           method: 'gate',
           dataPoints: n,
           figureMonths: null,
-          rule: 'Stress test gate: a failure gives a flag, not a figure.',
+          rule,
+          gateOf,
           message: n > 0 ? `${c.name}: all results passed.` : `${c.name}: no results yet.`,
         });
       }

@@ -55,7 +55,8 @@ export interface AnalysisCondition {
   role: string;
   setpointC: number | null;
   location: string;
-  mkt: { mktC: number; minC: number; maxC: number; meanC: number; readings: number; from: string; to: string } | null;
+  /** Over the readings between `from` (day 0) and `to` (today); `firstOn`/`lastOn`: the dates the log really covers (UTC). */
+    mkt: { mktC: number; minC: number; maxC: number; meanC: number; readings: number; from: string; to: string; firstOn: string; lastOn: string } | null;
 }
 
 export interface AnalysisAttribute {

@@ -5,6 +5,7 @@
  */
 import { COMPARED_LEVELS, COMPARED_LEVEL_LABELS, type ComparedLevel } from '@shared/compute/criteria';
 import type { ReasonMethod, SuggestResult } from '@shared/compute/suggest';
+import { daysBetween } from '@shared/compute/schedule';
 import type { StoredVerdict } from '@shared/domain';
 import type { AnalysisAttribute, AnalysisCondition, AnalysisVariant } from './types';
 
@@ -72,6 +73,20 @@ export function mktText(c: Pick<AnalysisCondition, 'mkt'>): string {
   if (!c.mkt || !isNum(c.mkt.mktC)) return 'MKT: no chamber log for this period';
   const n = isNum(c.mkt.readings) ? c.mkt.readings : 0;
   return `MKT ${num(c.mkt.mktC, 2)} °C from ${n.toLocaleString('en-GB')} ${n === 1 ? 'reading' : 'readings'}`;
+}
+
+/**
+ * Where the chamber log does not cover the study so far (more than a day missing at either end),
+ * in words; null when it does. The MKT is over the readings there are, so a gap matters.
+ */
+export function logGap(m: { from: string; to: string; firstOn: string; lastOn: string }): string | null {
+  const head = daysBetween(m.from, m.firstOn);
+  const tail = daysBetween(m.lastOn, m.to);
+  const days = (n: number) => `${n} ${n === 1 ? 'day' : 'days'}`;
+  const parts: string[] = [];
+  if (head > 1) parts.push(`the first ${days(head)} from day 0`);
+  if (tail > 1) parts.push(`the last ${days(tail)}`);
+  return parts.length ? `No chamber log for ${parts.join(' or ')}: the MKT covers only the logged days.` : null;
 }
 
 /** The meaning of each step of a graded, compared or pass/fail attribute, best first. */

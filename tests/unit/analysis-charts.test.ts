@@ -7,7 +7,7 @@ import type { StudyAnalysis as ServerStudyAnalysis } from '../../server/services
 import { deltaEChart, fitCurves, fitEnd, heatGrid, HEAT_PALETTE, heatSteps, LARGE_POINTS, measuredChart, niceRange, SERIES_NAMES, type ChartOption } from '../../src/analysis/charts';
 import { compareCell, compareMatrix, firstFailureText, pickVariants } from '../../src/analysis/compare';
 import { toCsv } from '../../src/analysis/csv';
-import { DASH, levelValue, monthsText, num, slug, suggestionHeadline, valueWords, withUnit } from '../../src/analysis/format';
+import { DASH, levelValue, logGap, monthsText, num, slug, suggestionHeadline, valueWords, withUnit } from '../../src/analysis/format';
 import type { Series, StudyAnalysis } from '../../src/analysis/types';
 import { SUGGEST_CAUTION } from '../../shared/compute/suggest';
 
@@ -25,7 +25,7 @@ function fixture(): StudyAnalysis {
     { id: 2, code: 'B', name: '5 % emulsifier + xanthan', lots: ['L-B'] },
   ];
   const conditions = [
-    { id: 10, name: '45 °C', kind: 'constant', role: 'accelerated', setpointC: 45, location: 'oven 2', mkt: { mktC: 45.21, minC: 43.9, maxC: 46.2, meanC: 45.1, readings: 2184, from: '2026-09-01', to: '2026-12-01' } },
+    { id: 10, name: '45 °C', kind: 'constant', role: 'accelerated', setpointC: 45, location: 'oven 2', mkt: { mktC: 45.21, minC: 43.9, maxC: 46.2, meanC: 45.1, readings: 2184, from: '2026-09-01', to: '2026-12-01', firstOn: '2026-09-01', lastOn: '2026-12-01' } },
     { id: 11, name: '4 °C control', kind: 'constant', role: 'control', setpointC: 4, location: 'fridge 1', mkt: null },
     { id: 12, name: '25 °C / 60 % RH', kind: 'constant', role: 'real_time', setpointC: 25, location: 'cabinet', mkt: null },
     { id: 13, name: 'Freeze-thaw', kind: 'cycling', role: 'stress', setpointC: null, location: 'freezer', mkt: null },
@@ -440,5 +440,17 @@ describe('comparison of variants', () => {
     expect(firstFailureText(hot.firstFailures[0])).toBe('None so far');
     expect(m.suggestions.map((s) => s?.months)).toEqual([11, null]);
     expect(compareCell(a, a.attributes[0], 1, 999)).toMatchObject({ text: DASH, state: 'none' });
+  });
+});
+
+describe('chamber log coverage beside the MKT', () => {
+  it('names a missing start or end of more than a day, and is silent when the log covers the study', () => {
+    expect(logGap({ from: '2026-10-03', to: '2026-12-02', firstOn: '2026-11-02', lastOn: '2026-12-02' })).toBe(
+      'No chamber log for the first 30 days from day 0: the MKT covers only the logged days.',
+    );
+    expect(logGap({ from: '2026-10-03', to: '2026-12-02', firstOn: '2026-10-03', lastOn: '2026-11-20' })).toBe(
+      'No chamber log for the last 12 days: the MKT covers only the logged days.',
+    );
+    expect(logGap({ from: '2026-10-03', to: '2026-12-02', firstOn: '2026-10-04', lastOn: '2026-12-01' })).toBeNull();
   });
 });

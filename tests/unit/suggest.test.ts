@@ -152,6 +152,24 @@ describe('accelerated failure and gates that block', () => {
     expect(r.months).toBe(11);
   });
 
+  it('a control is the reference, not a stress test: its failure is a note, never a figure or a block', () => {
+    const fridge: SuggestCondition = {
+      name: '4 °C control',
+      kind: 'constant',
+      role: 'control',
+      setpointC: 4,
+      attributes: [{ name: 'odor', kind: 'compared', observations: [{ months: 0, passed: true }, { months: 1, passed: false }] }],
+    };
+    const r = suggestShelfLife({ storageTempC: 25, conditions: [oven45(), fridge] });
+    expect(r.months).toBe(11); // the 45 °C projection alone, as without the control
+    expect(r.blocked).toBe(false);
+    expect(r.gates).toEqual([expect.objectContaining({ condition: '4 °C control', outcome: 'note', instruction: null })]);
+    const line = r.reasons.find((x) => x.condition === '4 °C control')!;
+    expect(line).toMatchObject({ method: 'gate', gateOf: 'control', figureMonths: null });
+    expect(line.rule).toMatch(/^Control: the reference/);
+    expect(r.reasons.find((x) => x.condition === '45 °C oven' && x.method === 'gate')).toBeUndefined();
+  });
+
   it('only day-0 results at 45 °C give no projection yet (not a figure of 0)', () => {
     const dayZero: SuggestCondition = {
       ...oven45(),
