@@ -5,7 +5,7 @@
  */
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { join } from 'node:path';
+import { join, resolve } from 'node:path';
 import express from 'express';
 import session from 'express-session';
 import MySQLStoreFactory from 'express-mysql-session';
@@ -122,7 +122,8 @@ export function createApp(deps: AppDeps) {
   api.use(formulaRoutes(db));
   api.use(storageRoutes(db));
   api.use(studyRoutes(db));
-  const uploadsDir = deps.uploadsDir ?? join(config.DATA_DIR, 'uploads');
+  // Absolute: res.sendFile refuses relative paths, and DATA_DIR defaults to the relative '.data'.
+  const uploadsDir = resolve(deps.uploadsDir ?? join(config.DATA_DIR, 'uploads'));
   api.use(recordRoutes(db, uploadsDir));
   api.use(reviewRoutes(db, log, uploadsDir));
   api.use(accountRoutes({ db, config, log }));

@@ -1,3 +1,6 @@
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, relative } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { eq, sql } from 'drizzle-orm';
 import mysql from 'mysql2/promise';
@@ -24,7 +27,8 @@ let study: Study;
 const today = () => localDateInZone(new Date(), 'Europe/Berlin');
 
 beforeAll(async () => {
-  t = await createTestApp();
+  // A relative uploads folder on purpose: DATA_DIR defaults to the relative '.data', and photos must still be served.
+  t = await createTestApp({ uploadsDir: relative(process.cwd(), mkdtempSync(join(tmpdir(), 'kw-uploads-'))) });
   [owner, formulator, technician, otherOwner] = await Promise.all([
     t.signIn(DEMO.owner),
     t.signIn(DEMO.formulator),
