@@ -172,7 +172,9 @@ export async function seedFormulas(tx: DbOrTx, labId: number, userId: number, no
     const madeOn = daysAgo(b.days, now);
     let lotCode = `${b.prefix}-${madeOn.slice(2, 4)}${madeOn.slice(5, 7)}`;
     for (let n = 2; lotCodes.includes(lotCode); n++) lotCode = `${b.prefix}-${madeOn.slice(2, 4)}${madeOn.slice(5, 7)}-${n}`;
-    const snapshot = await takeSnapshot(tx, labId, b.variantId, new Date(`${madeOn}T09:00:00Z`));
+    // Recorded at the end of the making day; the formula snapshot is taken as the batch is recorded.
+    const recordedAt = new Date(`${madeOn}T16:00:00Z`);
+    const snapshot = await takeSnapshot(tx, labId, b.variantId, recordedAt);
     const [{ id }] = await tx
       .insert(batches)
       .values({
@@ -187,7 +189,7 @@ export async function seedFormulas(tx: DbOrTx, labId: number, userId: number, no
         notes: b.notes,
         formulaSnapshot: snapshot,
         createdBy: userId,
-        createdAt: new Date(`${madeOn}T16:00:00Z`),
+        createdAt: recordedAt,
       })
       .$returningId();
     batchIds.push(id);

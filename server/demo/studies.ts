@@ -30,6 +30,7 @@ import {
   variants,
 } from '../db/schema';
 import { audit } from '../services/audit';
+import { takeSnapshot } from '../services/formulas';
 import { newSampleCode } from '../services/studies';
 import { studyDataHash } from '../services/reviews';
 import { labelDating } from '../../shared/compute/label';
@@ -132,7 +133,7 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
   }
 
   let labelOrder = 0;
-  const photoTargets: { sampleId: number; checkpointId: number; separated: boolean; label: string; code: string }[] = [];
+  const photoTargets: { sampleId: number; checkpointId: number; separated: boolean; label: string; code: string; at: Date }[] = [];
   for (const [ci, c] of spec.conditions.entries()) {
     const cond = condRows.find((r) => r.id === c.conditionId)!;
     const offsets = c.offsets ?? SCHEDULE_TEMPLATES[c.template!].offsets;
@@ -211,7 +212,7 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
         if (rows.length) await tx.insert(observations).values(rows);
         const sep = rows.find((r) => r.studyAttributeId === saIds.find((x) => x.code === 'separation')?.id);
         if (c.role === 'accelerated' && (s.label === 'Week 8' || s.label === 'Day 0' || s.label === 'Week 4')) {
-          photoTargets.push({ sampleId: smp.id, checkpointId: cpId, separated: (sep?.valueNum ?? 0) >= 2, label: s.label, code: smp.batch.variantCode });
+          photoTargets.push({ sampleId: smp.id, checkpointId: cpId, separated: (sep?.valueNum ?? 0) >= 2, label: s.label, code: smp.batch.variantCode, at: new Date(`${s.dueDate}T10:45:00Z`) });
         }
       }
     }
@@ -265,6 +266,7 @@ export async function seedStudies(
 ): Promise<number[]> {
   const today = localDateInZone(now, timeZone);
   // An older pilot lot of variant A for the long real-time study (invented).
+  const pilotRecorded = new Date(`${addDays(today, -400)}T16:00:00Z`);
   const [{ id: oldLot }] = await tx
     .insert(batches)
     .values({
@@ -277,10 +279,13 @@ export async function seedStudies(
       fillAmount: 50,
       fillUnit: 'mL',
       notes: 'First pilot lot, kept for the real-time study.',
-      formulaSnapshot: [],
+      // The formula as it was when the lot was made (variant A has not changed since, in the demo).
+      formulaSnapshot: await takeSnapshot(tx, labId, catalogue.variants.handCreamA, pilotRecorded),
       createdBy: people.formulator,
+      createdAt: pilotRecorded,
     })
     .$returningId();
+  await audit(tx, { labId, userId: null, action: 'import', entity: 'batch', entityId: oldLot, newValue: { demo: true, note: 'pilot lot of variant A' }, reason: 'Demo data (invented)' });
 
   const emulsion = (code: string, c: CellContext): Value | undefined => {
     const weeks = c.day / 7;
@@ -384,8 +389,9 @@ export async function seedStudies(
       batchIds: [catalogue.batches[3]],
       startDaysAgo: 14,
       conditions: [
-        { conditionId: conditions['fridge-4'], role: 'control', template: 'light-4w' },
-        { conditionId: conditions['ich-40-75'], role: 'accelerated', template: 'light-4w' },
+        // Weekly for four weeks beside the light test, without calling them light schedules.
+        { conditionId: conditions['fridge-4'], role: 'control', template: null, offsets: SCHEDULE_TEMPLATES['light-4w'].offsets },
+        { conditionId: conditions['ich-40-75'], role: 'accelerated', template: null, offsets: SCHEDULE_TEMPLATES['light-4w'].offsets },
         { conditionId: conditions['window-daylight'], role: 'stress', template: 'light-4w' },
       ],
       attributes: [
@@ -500,7 +506,8 @@ export async function seedStudies(
       originalName: `variant-${p.code}-${p.label.toLowerCase().replace(' ', '-')}.jpg`,
       caption: p.separated ? 'Oil layer on the surface' : null,
       uploadedBy: people.technician,
-      uploadedAt: new Date(),
+      // Taken at the bench with the readings of that checkpoint.
+      uploadedAt: p.at,
     });
   }
   return [s1.studyId, s4.studyId];

@@ -437,6 +437,8 @@ async function batchDetail(db: DbOrTx, labId: number, id: number): Promise<Batch
     .limit(1);
   if (!row) throw notFound('No such batch in your lab');
   const snapshot = fromJson<FormulaSnapshot>(row.snapshot);
+  // A lot recorded without its formula (imported or very old) has no lines to scale; say so rather than fail.
+  if (!Array.isArray(snapshot?.lines)) throw conflict('No formula snapshot was recorded for this lot, so its formula cannot be shown');
   const batch = { ...toBatch(row), createdBy: row.createdBy };
   const current = await loadLines(db, labId, row.variantId);
   return {

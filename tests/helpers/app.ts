@@ -64,7 +64,11 @@ export interface TestApp {
   close(): Promise<void>;
 }
 
-export async function createTestApp(overrides: Partial<AppDeps> = {}): Promise<TestApp> {
+/**
+ * A fresh database and app for one test file. `demo`: 'people' (default) seeds the demo labs' members
+ * and starter attributes only; 'full' seeds what `npm start` shows (catalogue, studies, photos).
+ */
+export async function createTestApp(overrides: Partial<AppDeps> = {}, opts: { demo?: 'people' | 'full' } = {}): Promise<TestApp> {
   const m = inject('mariadb');
   const database = `kw_${randomBytes(5).toString('hex')}`;
   const admin: ConnectionTarget = { socketPath: m.socketPath, user: 'root', password: '', database };
@@ -75,7 +79,8 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}): Promise<T
   await grantAppAccount(admin, m.appUser);
   const pool = createPool({ host: '127.0.0.1', port: m.port, user: m.appUser, password: m.appPassword, database }, 10);
   const db = createDb(pool);
-  const labs = await seedDemo(db);
+  const uploadsDir = overrides.uploadsDir ?? mkdtempSync(join(tmpdir(), 'kw-uploads-'));
+  const labs = opts.demo === 'full' ? await seedDemo(db, { content: 'full', uploadsDir }) : await seedDemo(db);
   const { app, close } = createApp({
     db,
     pool,
@@ -83,8 +88,8 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}): Promise<T
     log: createLogger(true),
     sessionSecret: 'test-secret-that-is-long-enough',
     serveClient: false,
-    uploadsDir: mkdtempSync(join(tmpdir(), 'kw-uploads-')),
     ...overrides,
+    uploadsDir,
   });
   return {
     app,
