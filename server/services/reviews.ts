@@ -10,7 +10,7 @@ import { and, asc, desc, eq, inArray, sql } from 'drizzle-orm';
 import { labelDating } from '../../shared/compute/label';
 import { generateSchedule } from '../../shared/compute/schedule';
 import { SIGNATURE_MEANINGS } from '../../shared/domain';
-import type { DecisionInput, DecisionView, ReviewQueueItem, SubmissionView, SubmitInput } from '../../shared/schemas/reviews';
+import { openCheckpointsProblem, openCheckpointsText, type DecisionInput, type DecisionView, type ReviewQueueItem, type SubmissionView, type SubmitInput } from '../../shared/schemas/reviews';
 import { LOCKOUT } from '../auth/passport';
 import type { Db, DbOrTx } from '../db/client';
 import {
@@ -94,13 +94,14 @@ export async function submitStudy(db: Db, who: { id: number; labId: number }, st
     const missing = vs.filter((v) => !input.proposals.some((p) => p.variantId === v.id));
     if (missing.length) fields.proposals = `Propose a figure for variant ${missing.map((v) => v.code).join(', ')}`;
     if (Object.keys(fields).length) throw bad(fields);
-    const [{ n: open }] = await tx
+    const [{ n }] = await tx
       .select({ n: sql<number>`count(*)` })
       .from(checkpoints)
       .where(and(eq(checkpoints.studyId, studyId), eq(checkpoints.status, 'open')));
-    if (Number(open) > 0 && !input.openCheckpointsReason) {
-      throw new HttpError(422, 'unprocessable', `${open} checkpoint(s) are still open: finish them, or say why the study ends early`, {
-        openCheckpointsReason: `${open} checkpoint(s) still open: give a reason to end early`,
+    const open = Number(n);
+    if (open > 0 && !input.openCheckpointsReason) {
+      throw new HttpError(422, 'unprocessable', `${openCheckpointsText(open)}: finish them, or say why the study ends early`, {
+        openCheckpointsReason: openCheckpointsProblem(open),
       });
     }
     const [{ id }] = await tx

@@ -26,6 +26,16 @@ export const submitInput = z.strictObject({
 });
 export type SubmitInput = z.infer<typeof submitInput>;
 
+/** "1 checkpoint is still open", "3 checkpoints are still open": the submit form's label and the refusal alike. */
+export function openCheckpointsText(n: number): string {
+  return `${n} ${n === 1 ? 'checkpoint is' : 'checkpoints are'} still open`;
+}
+
+/** The refusal beside the reason field, from the form before sending and from the server. */
+export function openCheckpointsProblem(n: number): string {
+  return `${openCheckpointsText(n)}: give a reason to end early`;
+}
+
 export const decisionInput = z
   .strictObject({
     variantId: z.number().int().positive(),

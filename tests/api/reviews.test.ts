@@ -48,7 +48,8 @@ describe('submitting for review', () => {
     const { id, variantIds } = await runningStudy();
     const noReason = await formulator.post(`/api/studies/${id}/submit`, { summary: 'Both variants held for the first days.', proposals: proposals(variantIds) });
     expect(noReason.status).toBe(422);
-    expect(noReason.body.error.fields).toHaveProperty('openCheckpointsReason');
+    const open = (await formulator.get(`/api/studies/${id}`)).body.study.checkpoints.filter((c: { status: string }) => c.status === 'open').length;
+    expect(noReason.body.error.fields.openCheckpointsReason).toBe(`${open} checkpoints are still open: give a reason to end early`);
     const missingVariant = await formulator.post(`/api/studies/${id}/submit`, { summary: 'Both variants held.', proposals: proposals(variantIds.slice(0, 1)), openCheckpointsReason: 'Ending early' });
     expect(missingVariant.status).toBe(400);
     expect((await technician.post(`/api/studies/${id}/submit`, { summary: 'x'.repeat(20), proposals: proposals(variantIds) })).status).toBe(403);

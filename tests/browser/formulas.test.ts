@@ -194,8 +194,7 @@ describe('formulas', () => {
     await page.getByTestId('record-batch').click();
     const madeOn = addDays(todayIn(timeZone), -1);
     await input(page, 'batch-lot').fill('ABL-B-01');
-    // The picker's test id does not reach its text box (Element Plus hands it to the popper), so by its label.
-    const date = page.locator('.el-dialog').getByLabel('Date made');
+    const date = input(page, 'batch-date');
     await date.fill(madeOn);
     await date.press('Enter');
     await expect.poll(() => date.inputValue()).toBe(madeOn);

@@ -203,8 +203,10 @@ describe('Submit for review', () => {
         'A held at every condition through week 8: pH and viscosity well inside the limits, no separation. B separated at 45 °C by week 8 (grade 2) with a slight odour change; its 25 °C results are fine. I propose releasing A with a provisional 6 months (the 45 °C projection gives about 7) and testing B further.',
       );
     await form.getByTestId('submit-for-review').click();
-    await expect.poll(() => form.locator('.el-form-item__error').allTextContents()).toEqual([expect.stringMatching(/checkpoint\(s\) still open: give a reason to end early/)]);
+    await expect.poll(() => form.locator('.el-form-item__error').allTextContents()).toEqual([expect.stringMatching(/^\d+ checkpoints are still open: give a reason to end early$/)]);
+    // Typing the reason clears its error at once, before the next submit.
     await form.getByTestId('submit-open-reason').fill('Week 12 is not needed for A; B goes on in any case');
+    await expect.poll(() => form.locator('.el-form-item__error').count()).toBe(0);
     await page.evaluate(() => window.scrollTo(0, 0)); // the pinned app bar stays at the top of a full-page shot
     await page.waitForTimeout(300);
     await page.screenshot({ path: join(SHOTS, 'study-submit-tab.png'), fullPage: true });

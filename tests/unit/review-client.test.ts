@@ -101,9 +101,10 @@ describe('SubmitForm', () => {
     await w.find('form').trigger('submit');
     await settle();
     expect(calls.some((c) => c.method === 'POST')).toBe(false);
-    expect(w.text()).toContain('give a reason to end early');
+    expect(w.text()).toContain('1 checkpoint is still open: give a reason to end early');
 
     await w.find('[data-testid="submit-open-reason"]').setValue('The formula changes');
+    expect(w.text()).not.toContain('give a reason to end early'); // cleared as soon as the reason is typed
     await w.find('form').trigger('submit');
     await flushPromises();
     const post = calls.find((c) => c.method === 'POST');
