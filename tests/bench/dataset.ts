@@ -9,6 +9,7 @@ import bcrypt from 'bcryptjs';
 import type { Pool } from '../../server/db/client';
 import { DEMO_LABS, DEMO_PASSWORD } from '../../server/demo/people';
 import type { SeededLab } from '../../server/demo/seed';
+import { mulberry32 } from '../../server/demo/storage';
 import type { Role } from '../../shared/roles';
 
 export interface BenchMember {
@@ -40,18 +41,6 @@ export interface DatasetOptions {
   auditRows?: number;
 }
 
-/** mulberry32: a tiny seeded generator so every run builds the same data. */
-function prng(seed: number) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 const FIRST = ['Ada', 'Bo', 'Cleo', 'Dario', 'Elin', 'Farid', 'Greta', 'Hugo', 'Ines', 'Jonas', 'Kaia', 'Lior', 'Mira', 'Nils', 'Oona', 'Pavel', 'Quinn', 'Rhea', 'Soren', 'Tove'];
 const LAST = ['Abbot', 'Brandt', 'Castell', 'Dunmore', 'Eskola', 'Ferrand', 'Galloway', 'Haldane', 'Ivers', 'Jessop', 'Kettering', 'Lorimer', 'Marsh', 'Norland', 'Orme', 'Pellow'];
 const LAB_WORDS = ['Thistle', 'Marigold', 'Saltmarsh', 'Bramble', 'Linden', 'Quarry', 'Harbor', 'Meadow', 'Ember', 'Juniper'];
@@ -66,7 +55,7 @@ export async function generateDataset(pool: Pool, demo: SeededLab[], opts: Datas
   const labCount = opts.labs ?? 50;
   const perLab = opts.membersPerLab ?? 12;
   const auditTotal = opts.auditRows ?? 100_000;
-  const rand = prng(20261201);
+  const rand = mulberry32(20261201);
   const pick = <T>(xs: readonly T[]) => xs[Math.floor(rand() * xs.length)];
   // One bcrypt hash (cost 10, like real accounts) reused for every generated member: hashing 600 would take a minute.
   const hash = bcrypt.hashSync(DEMO_PASSWORD, 10);

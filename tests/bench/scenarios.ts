@@ -8,18 +8,18 @@ import bcrypt from 'bcryptjs';
 import type { BenchContext, Scenario } from './scenario';
 import { sessionIdFromCookie } from './scenario';
 
-const JSON_CHANGE = { 'content-type': 'application/json', 'x-keepwell-request': '1' };
+export const JSON_CHANGE = { 'content-type': 'application/json', 'x-keepwell-request': '1' };
 /** The app's session lifetime (SESSION_IDLE_MINUTES default, 120 min): what the store's touch writes. */
 const SESSION_IDLE_MS = 120 * 60_000;
 
-const SESSION_READ = 'SELECT data, expires FROM sessions WHERE session_id = ?';
-const SESSION_TOUCH = 'UPDATE sessions SET expires = ? WHERE session_id = ?';
+export const SESSION_READ = 'SELECT data, expires FROM sessions WHERE session_id = ?';
+export const SESSION_TOUCH = 'UPDATE sessions SET expires = ? WHERE session_id = ?';
 /** passport's deserializeUser -> loadMember (server/auth/session-user.ts). */
-const MEMBER_WITH_LAB =
+export const MEMBER_WITH_LAB =
   'SELECT u.id, u.name, u.email, u.role, u.lab_id, l.name AS lab_name, l.time_zone, l.date_format ' +
   'FROM users u INNER JOIN labs l ON l.id = u.lab_id WHERE u.id = ? AND u.active = 1 LIMIT 1';
 
-function expiresNow(): number {
+export function expiresNow(): number {
   return Math.round((Date.now() + SESSION_IDLE_MS) / 1000);
 }
 

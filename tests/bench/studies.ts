@@ -19,17 +19,9 @@ import { analyzeStudy } from '../../server/services/analysis';
 import { benchCheckpointsQuery, benchDetailQueries } from '../../server/services/studies';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 import type { BenchContext, Scenario } from './scenario';
+import { expiresNow, JSON_CHANGE, MEMBER_WITH_LAB, SESSION_READ, SESSION_TOUCH } from './scenarios';
 import { sessionIdFromCookie } from './scenario';
 import { createStudyLab, emulsionValue, prng, weeks, writeStudies, type BulkStudySpec, type StudyLab } from './study-data';
-
-const JSON_CHANGE = { 'content-type': 'application/json', 'x-keepwell-request': '1' };
-const SESSION_IDLE_MS = 120 * 60_000;
-const SESSION_READ = 'SELECT data, expires FROM sessions WHERE session_id = ?';
-const SESSION_TOUCH = 'UPDATE sessions SET expires = ? WHERE session_id = ?';
-const MEMBER_WITH_LAB =
-  'SELECT u.id, u.name, u.email, u.role, u.lab_id, l.name AS lab_name, l.time_zone, l.date_format ' +
-  'FROM users u INNER JOIN labs l ON l.id = u.lab_id WHERE u.id = ? AND u.active = 1 LIMIT 1';
-const expiresNow = () => Math.round((Date.now() + SESSION_IDLE_MS) / 1000);
 
 interface Session {
   cookie: string;

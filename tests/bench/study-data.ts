@@ -12,7 +12,7 @@ import bcrypt from 'bcryptjs';
 import type { ResultSetHeader, RowDataPacket } from 'mysql2';
 import { attributes } from '../../server/db/schema';
 import { seedFormulas } from '../../server/demo/formulas';
-import { seedStorage } from '../../server/demo/storage';
+import { mulberry32, seedStorage } from '../../server/demo/storage';
 import { ensureStarterAttributes } from '../../server/services/labs';
 import { evaluate, type Criterion } from '../../shared/compute/criteria';
 import { addDays, generateSchedule, localDateInZone } from '../../shared/compute/schedule';
@@ -45,17 +45,8 @@ export interface StudyLab {
   lots: { id: number; variantCode: string; lotCode: string }[];
 }
 
-/** mulberry32: a tiny seeded generator so every run writes the same data. */
-export function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** The demo's seeded generator, so every run writes the same data. */
+export const prng = mulberry32;
 
 const VARIANT_CODES = 'ABCDEFGH';
 
