@@ -19,6 +19,7 @@ declare module 'vue' {
     BatchDialog: typeof import('./components/formulas/BatchDialog.vue')['default']
     BenchCheckpointCard: typeof import('./components/bench/BenchCheckpointCard.vue')['default']
     CautionList: typeof import('./components/storage/CautionList.vue')['default']
+    ChangePasswordDialog: typeof import('./components/ChangePasswordDialog.vue')['default']
     CheckpointGrid: typeof import('./components/study/CheckpointGrid.vue')['default']
     ChoiceButtons: typeof import('./components/record/ChoiceButtons.vue')['default']
     ConditionForm: typeof import('./components/storage/ConditionForm.vue')['default']

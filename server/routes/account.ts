@@ -1,7 +1,8 @@
 /**
  * Mounted at /api: invitations (owners invite; the person accepts through a
- * single-use link), "forgot password" (single-use link, one hour), personal
- * preferences, the lab's reminder settings, and the development Outbox.
+ * single-use link), "forgot password" (single-use link, one hour), changing
+ * one's own password while signed in, personal preferences, the lab's
+ * reminder settings, and the development Outbox.
  *
  * Tokens are 32 random bytes (base64url) sent only in e-mails; the database
  * keeps their SHA-256 hashes, so a copy of the database opens no account.
@@ -13,6 +14,7 @@ import { Router, type Request } from 'express';
 import { rateLimit } from 'express-rate-limit';
 import {
   acceptInvitationInput,
+  changePasswordInput,
   forgotPasswordInput,
   inviteInput,
   preferencesInput,
@@ -24,6 +26,7 @@ import {
 } from '../../shared/schemas/account';
 import { endSessionsOf } from '../auth/end-sessions';
 import { requireMember, requireRole } from '../auth/guards';
+import { LOCKOUT } from '../auth/passport';
 import { passwordProblem } from '../auth/password-policy';
 import { member } from '../auth/session-user';
 import type { Config } from '../config';
@@ -92,9 +95,9 @@ async function labOf(db: Db, labId: number) {
   return lab;
 }
 
-async function checkPassword(password: string, email: string) {
+async function checkPassword(password: string, email: string, field = 'password') {
   const problem = await passwordProblem(password, { email });
-  if (problem) throw new HttpError(400, 'validation', problem, { password: problem });
+  if (problem) throw new HttpError(400, 'validation', problem, { [field]: problem });
 }
 
 function isDuplicate(err: unknown): boolean {
@@ -418,6 +421,75 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
     });
     log.info(`member ${first.userId} chose a new password through a reset link`);
     res.json({ message: 'Your password has been changed. Sign in with the new password.', email: first.email });
+  });
+
+  // ---------- changing one's own password (signed in) ----------
+
+  /**
+   * The current password is checked like a sign-in: wrong answers count towards the
+   * same lockout (LOCKOUT in auth/passport.ts), and a locked account cannot change it.
+   * The new password follows the reset rules. This session stays; every other session
+   * of the member ends, and open reset links stop working.
+   */
+  r.post('/account/password', requireMember, async (req, res) => {
+    const me = member(req);
+    const input = parse(changePasswordInput, req.body);
+    const [u] = await db.select().from(users).where(eq(users.id, me.id));
+    // The rules for the new password first: a refused new password costs no attempt.
+    await checkPassword(input.newPassword, u.email, 'newPassword');
+    const t = now();
+    if (u.lockedUntil && u.lockedUntil > t) {
+      const minutes = Math.ceil((u.lockedUntil.getTime() - t.getTime()) / 60_000);
+      res.set('Retry-After', String(Math.ceil((u.lockedUntil.getTime() - t.getTime()) / 1000)));
+      throw new HttpError(429, 'rate_limited', `Too many wrong passwords for this account; try again in ${minutes} min`, {
+        currentPassword: `Locked for ${minutes} min after too many wrong passwords`,
+      });
+    }
+    if (!(await bcrypt.compare(input.currentPassword, u.passwordHash))) {
+      const failures = u.failedSignIns + 1;
+      const lock = failures >= LOCKOUT.maxFailures;
+      await db.transaction(async (tx) => {
+        await tx
+          .update(users)
+          .set({ failedSignIns: lock ? 0 : sql`${users.failedSignIns} + 1`, lockedUntil: lock ? new Date(t.getTime() + LOCKOUT.minutes * 60_000) : u.lockedUntil })
+          .where(eq(users.id, me.id));
+        if (lock) {
+          await audit(tx, {
+            labId: me.labId,
+            userId: me.id,
+            action: 'lockout',
+            entity: 'user',
+            entityId: me.id,
+            newValue: { minutes: LOCKOUT.minutes, ip: req.ip },
+            reason: `${LOCKOUT.maxFailures} wrong passwords (sign-in, signing or changing the password)`,
+          });
+        }
+      });
+      log.warn(`password change refused for member ${me.id}: wrong current password${lock ? ' (locked)' : ''} (ip ${req.ip})`);
+      throw new HttpError(403, 'forbidden', 'The current password is wrong: the password was not changed', { currentPassword: 'Wrong password' });
+    }
+    const passwordHash = await bcrypt.hash(input.newPassword, BCRYPT_ROUNDS);
+    const ended = await db.transaction(async (tx) => {
+      await tx.update(users).set({ passwordHash, failedSignIns: 0, lockedUntil: null }).where(eq(users.id, me.id));
+      // A reset link asked for earlier would otherwise still set a password.
+      await tx.update(passwordResets).set({ usedAt: t }).where(and(eq(passwordResets.userId, me.id), isNull(passwordResets.usedAt)));
+      const n = await endSessionsOf(tx, me.id, { except: req.sessionID });
+      await audit(tx, {
+        labId: me.labId,
+        userId: me.id,
+        action: 'update',
+        entity: 'user',
+        entityId: me.id,
+        newValue: { password: 'changed', otherSessionsEnded: n },
+        reason: 'Password changed by the member while signed in',
+      });
+      return n;
+    });
+    log.info(`member ${me.id} changed their password; ${ended} other session(s) ended`);
+    res.json({
+      message: ended ? `Your password has been changed. ${ended === 1 ? 'Your other session was' : `Your ${ended} other sessions were`} signed out.` : 'Your password has been changed.',
+      otherSessionsEnded: ended,
+    });
   });
 
   // ---------- the member's own preferences ----------

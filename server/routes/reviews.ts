@@ -7,7 +7,7 @@ import type { Db } from '../db/client';
 import { attributes, batches, checkpoints, observations, samples, storageConditions, studies, studyAttributes, studyConditions, users, variants } from '../db/schema';
 import { idParam, notFound, parse } from '../http/errors';
 import type { Logger } from '../log';
-import { decide, reviewOf, reviewQueue, submitStudy } from '../services/reviews';
+import { decide, decidedStudies, reviewOf, reviewQueue, submitStudy } from '../services/reviews';
 import { valueOf } from '../services/records';
 import { studyReportPdf } from '../services/report';
 import { todayIn } from '../services/studies';
@@ -31,8 +31,11 @@ export function reviewRoutes(db: Db, log: Logger, uploadsDir: string): Router {
     res.json({ review: await reviewOf(db, me.labId, id) });
   });
 
+  /** The owner's Reviews page: the queue (in review, oldest submission first) and the decided studies (latest decision first). */
   r.get('/reviews', requireRole('owner'), async (req, res) => {
-    res.json({ queue: await reviewQueue(db, member(req).labId) });
+    const labId = member(req).labId;
+    const [queue, decided] = await Promise.all([reviewQueue(db, labId), decidedStudies(db, labId)]);
+    res.json({ queue, decided });
   });
 
   r.get('/studies/:id/review', requireRole('formulator'), async (req, res) => {

@@ -10,7 +10,17 @@ import { and, asc, desc, eq, inArray, sql } from 'drizzle-orm';
 import { labelDating } from '../../shared/compute/label';
 import { generateSchedule } from '../../shared/compute/schedule';
 import { SIGNATURE_MEANINGS } from '../../shared/domain';
-import { openCheckpointsProblem, openCheckpointsText, type DecisionInput, type DecisionView, type ReviewQueueItem, type SubmissionView, type SubmitInput } from '../../shared/schemas/reviews';
+import {
+  longerThanSuggested,
+  openCheckpointsProblem,
+  openCheckpointsText,
+  type DecidedStudyItem,
+  type DecisionInput,
+  type DecisionView,
+  type ReviewQueueItem,
+  type SubmissionView,
+  type SubmitInput,
+} from '../../shared/schemas/reviews';
 import { LOCKOUT } from '../auth/passport';
 import type { Db, DbOrTx } from '../db/client';
 import {
@@ -31,8 +41,9 @@ import {
 } from '../db/schema';
 import { conflict, forbidden, HttpError, notFound } from '../http/errors';
 import type { Logger } from '../log';
+import { analyzeStudy } from './analysis';
 import { audit } from './audit';
-import { cycleHoursOf, planOf } from './studies';
+import { cycleHoursOf, planOf, todayIn } from './studies';
 
 const bad = (fields: Record<string, string>) => new HttpError(400, 'validation', `Invalid input: check ${Object.keys(fields).join(', ')}`, fields);
 
@@ -182,6 +193,14 @@ export async function decide(
     if (pre.createdBy === who.id || sub?.submittedBy === who.id) {
       throw forbidden('Your lab does not let the author of a study approve it: another owner must sign');
     }
+  }
+  // A shelf life longer than the analysis suggests needs a comment saying why (checked before the password, so a refused form costs no attempt).
+  const releasing = input.outcome === 'released' || input.outcome === 'released_with_conditions';
+  if (releasing && input.shelfLifeMonths != null && !input.comment) {
+    const analysis = await analyzeStudy(db, who.labId, studyId, todayIn(lab.timeZone), lab.q10);
+    const suggested = analysis.suggestions.find((s) => s.variantId === input.variantId)?.result.months;
+    const why = longerThanSuggested(input, suggested);
+    if (why) throw bad({ comment: why });
   }
   const signer = await verifySigner(db, log, who.id, who.labId, input.password, studyId);
 
@@ -395,4 +414,56 @@ export async function reviewQueue(db: Db, labId: number): Promise<ReviewQueueIte
   }
   // Oldest submission first.
   return out.sort((a, b) => a.submittedAt.localeCompare(b.submittedAt));
+}
+
+/**
+ * The lab's decided studies with the decision in force per variant, the most recent
+ * decision first (three queries whatever the number of studies).
+ */
+export async function decidedStudies(db: Db, labId: number): Promise<DecidedStudyItem[]> {
+  const rows = await db
+    .select({ id: studies.id, title: studies.title, product: products.name })
+    .from(studies)
+    .innerJoin(products, eq(products.id, studies.productId))
+    .where(and(eq(studies.labId, labId), eq(studies.status, 'decided')));
+  if (!rows.length) return [];
+  const ids = rows.map((r) => r.id);
+  const [all, vs] = await Promise.all([
+    db
+      .select()
+      .from(decisions)
+      .where(and(eq(decisions.labId, labId), inArray(decisions.studyId, ids)))
+      .orderBy(asc(decisions.id)),
+    db
+      .selectDistinct({ studyId: studyBatches.studyId, id: variants.id, code: variants.code, name: variants.name })
+      .from(studyBatches)
+      .innerJoin(batches, eq(batches.id, studyBatches.batchId))
+      .innerJoin(variants, eq(variants.id, batches.variantId))
+      .where(inArray(studyBatches.studyId, ids))
+      .orderBy(asc(variants.code)),
+  ]);
+  const superseded = new Set(all.map((d) => d.supersedesId).filter((x): x is number => x != null));
+  const out: DecidedStudyItem[] = [];
+  for (const r of rows) {
+    const current = all.filter((d) => d.studyId === r.id && !superseded.has(d.id));
+    if (!current.length) continue;
+    const latest = current.reduce((a, b) => (b.signedAt > a.signedAt || (b.signedAt.getTime() === a.signedAt.getTime() && b.id > a.id) ? b : a));
+    out.push({
+      studyId: r.id,
+      title: r.title,
+      product: r.product,
+      decidedAt: latest.signedAt.toISOString(),
+      decidedBy: latest.signerName,
+      variants: vs
+        .filter((v) => v.studyId === r.id)
+        .flatMap((v) => {
+          const d = current.find((x) => x.variantId === v.id);
+          return d
+            ? [{ variantId: v.id, code: v.code, name: v.name, outcome: d.outcome, shelfLifeMonths: d.shelfLifeMonths, paoMonths: d.paoMonths, conditionsText: d.conditionsText }]
+            : [];
+        }),
+    });
+  }
+  // Most recent decision first.
+  return out.sort((a, b) => b.decidedAt.localeCompare(a.decidedAt) || b.studyId - a.studyId);
 }

@@ -31,6 +31,15 @@ export type ForgotPasswordInput = z.infer<typeof forgotPasswordInput>;
 export const resetPasswordInput = z.strictObject({ password: newPassword });
 export type ResetPasswordInput = z.infer<typeof resetPasswordInput>;
 
+/** A signed-in member changes their own password: the current one, then the new one (same rules as reset). */
+export const changePasswordInput = z
+  .strictObject({
+    currentPassword: z.string({ message: 'Enter your current password' }).min(1, 'Enter your current password').max(200, 'At most 200 characters'),
+    newPassword,
+  })
+  .refine((d) => d.newPassword !== d.currentPassword, { path: ['newPassword'], message: 'Choose a password different from the current one' });
+export type ChangePasswordInput = z.infer<typeof changePasswordInput>;
+
 export const preferencesInput = z.strictObject({ remindersEnabled: z.boolean({ message: 'Choose on or off' }) });
 export type PreferencesInput = z.infer<typeof preferencesInput>;
 

@@ -60,6 +60,17 @@ export const decisionInput = z
   });
 export type DecisionInput = z.infer<typeof decisionInput>;
 
+/**
+ * A release whose shelf life is longer than the analysis suggests for the variant needs a
+ * comment saying why. The message (shown beside the comment), or null when none is needed.
+ * The server checks it at signing against the suggestion it computes then.
+ */
+export function longerThanSuggested(d: { outcome: DecisionOutcome | null; shelfLifeMonths?: number | null }, suggestedMonths: number | null | undefined): string | null {
+  const releasing = d.outcome === 'released' || d.outcome === 'released_with_conditions';
+  if (!releasing || d.shelfLifeMonths == null || suggestedMonths == null || d.shelfLifeMonths <= suggestedMonths) return null;
+  return `Longer than the data suggest (${suggestedMonths} ${suggestedMonths === 1 ? 'month' : 'months'}): say why in the comment`;
+}
+
 export interface DecisionView {
   id: number;
   variantId: number;
@@ -99,4 +110,23 @@ export interface ReviewQueueItem {
   submittedAt: string;
   variants: number;
   decided: number;
+}
+
+/** A decided study on the Reviews page: the decision in force per variant, most recent decision first. */
+export interface DecidedStudyItem {
+  studyId: number;
+  title: string;
+  product: string;
+  /** When the latest decision in force was signed (UTC ISO), and by whom. */
+  decidedAt: string;
+  decidedBy: string;
+  variants: {
+    variantId: number;
+    code: string;
+    name: string;
+    outcome: DecisionOutcome;
+    shelfLifeMonths: number | null;
+    paoMonths: number | null;
+    conditionsText: string | null;
+  }[];
 }

@@ -27,7 +27,11 @@ beforeAll(async () => {
   }
   const variantIds = [...new Set(study.batches.map((b: { variant: { id: number } }) => b.variant.id))] as number[];
   await formulator.post(`/api/studies/${studyId}/submit`, { summary: 'Held at every condition so far.', proposals: variantIds.map((variantId) => ({ variantId, shelfLifeMonths: 6 })), openCheckpointsReason: 'Report test ends early' });
-  for (const v of variantIds) await owner.post(`/api/studies/${studyId}/decisions`, { variantId: v, outcome: 'released', shelfLifeMonths: 6, password: DEMO_PASSWORD });
+  // Six months is longer than one week at 45 °C suggests: the comment says why (services/reviews.ts decide()).
+  for (const v of variantIds) {
+    const res = await owner.post(`/api/studies/${studyId}/decisions`, { variantId: v, outcome: 'released', shelfLifeMonths: 6, comment: 'Provisional, as earlier lots of this base held 6 months.', password: DEMO_PASSWORD });
+    expect(res.status, JSON.stringify(res.body)).toBe(201);
+  }
 });
 afterAll(async () => t?.close());
 

@@ -166,6 +166,39 @@ describe('signing decisions', () => {
     expect((await formulator.get(`/api/studies/${id}`)).body.study.status).toBe('in_review');
   });
 
+  it('a shelf life longer than the analysis suggests needs a comment saying why (400 naming comment, no password attempt used)', async () => {
+    // Day 0, week 1 and week 4 recorded, all passing: the 45 °C oven gives a Q10 projection.
+    const plan = planFor(cat, addDays(localDateInZone(new Date(), 'Europe/Berlin'), -30));
+    const id = (await formulator.post('/api/studies', plan)).body.study.id;
+    const study = (await formulator.post(`/api/studies/${id}/start`)).body.study;
+    for (const cp of study.checkpoints) {
+      for (const s of study.samples.filter((x: { studyConditionId: number }) => x.studyConditionId === cp.studyConditionId)) {
+        const res = await technician.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, {
+          entries: study.attributes.map((a: { id: number; code: string }) => ({ studyAttributeId: a.id, value: a.code === 'ph' ? 5.5 : a.code === 'separation' ? 0 : 'no_change' })),
+        });
+        expect(res.status, JSON.stringify(res.body)).toBe(200);
+      }
+    }
+    const variantIds = [...new Set(study.batches.map((b: { variant: { id: number } }) => b.variant.id))] as number[];
+    expect((await formulator.post(`/api/studies/${id}/submit`, { summary: 'Four weeks at 45 °C, all passing.', proposals: proposals(variantIds) })).status).toBe(200);
+    const analysis = (await owner.get(`/api/studies/${id}/analysis`)).body.analysis;
+    const suggested = analysis.suggestions.find((x: { variantId: number }) => x.variantId === variantIds[0]).result.months as number;
+    expect(suggested).toBeGreaterThanOrEqual(1);
+
+    const longer = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: suggested + 1, password: 'a wrong one, not checked' });
+    expect(longer.status).toBe(400);
+    expect(longer.body.error.fields.comment).toBe(`Longer than the data suggest (${suggested} ${suggested === 1 ? 'month' : 'months'}): say why in the comment`);
+    const [me] = await t.db.select({ failed: users.failedSignIns }).from(users).where(eq(users.email, DEMO.owner));
+    expect(me.failed).toBe(0);
+    const blank = await sign(owner, id, { variantId: variantIds[0], outcome: 'released_with_conditions', conditionsText: 'Store below 25 °C.', shelfLifeMonths: suggested + 6, comment: '   ' });
+    expect(blank.body.error.fields).toHaveProperty('comment');
+
+    // As suggested, or shorter: no comment needed. Longer with a reason: signed.
+    expect((await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: suggested })).status).toBe(201);
+    const withWhy = await sign(owner, id, { variantId: variantIds[1], outcome: 'released', shelfLifeMonths: suggested + 6, comment: 'The earlier lots of this formula held 24 months at 25 °C.' });
+    expect(withWhy.status, JSON.stringify(withWhy.body)).toBe(201);
+  });
+
   it('a lab can bar an owner from approving a study they wrote', async () => {
     const { id, variantIds } = await runningStudy();
     await owner.post(`/api/studies/${id}/submit`, { summary: 'Submitted by the owner.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
@@ -174,6 +207,48 @@ describe('signing decisions', () => {
     expect(res.status).toBe(403);
     expect(res.body.error.message).toMatch(/author/);
     await t.db.update(labs).set({ barSelfApproval: false }).where(eq(labs.id, t.labs[0].id));
+  });
+});
+
+describe('the Reviews page', () => {
+  it('lists decided studies, latest decision first, with the outcome per variant; owners of this lab only', async () => {
+    const { id, variantIds } = await runningStudy();
+    await formulator.post(`/api/studies/${id}/submit`, { summary: 'Ready for a decision.', proposals: proposals(variantIds), openCheckpointsReason: 'Ending early' });
+    expect((await sign(owner, id, { variantId: variantIds[0], outcome: 'released_with_conditions', conditionsText: 'Protect from freezing.', shelfLifeMonths: 12, paoMonths: 6 })).status).toBe(201);
+    // Half decided: still in the queue, not yet among the decided.
+    let page = (await owner.get('/api/reviews')).body;
+    expect(page.queue.map((q: { studyId: number }) => q.studyId)).toContain(id);
+    expect(page.decided.map((d: { studyId: number }) => d.studyId)).not.toContain(id);
+    expect((await sign(owner, id, { variantId: variantIds[1], outcome: 'not_released', comment: 'Separates' })).status).toBe(201);
+
+    page = (await owner.get('/api/reviews')).body;
+    expect(page.queue.map((q: { studyId: number }) => q.studyId)).not.toContain(id);
+    const [first] = page.decided;
+    expect(first).toMatchObject({ studyId: id, title: 'Test study', decidedBy: 'Maya Lindqvist' });
+    expect(first.variants.map((v: { code: string; outcome: string; shelfLifeMonths: number | null; conditionsText: string | null }) => [v.code, v.outcome, v.shelfLifeMonths, v.conditionsText])).toEqual([
+      ['A', 'released_with_conditions', 12, 'Protect from freezing.'],
+      ['B', 'not_released', null, null],
+    ]);
+    const times = page.decided.map((d: { decidedAt: string }) => d.decidedAt);
+    expect(times).toEqual([...times].sort().reverse());
+
+    // Superseding moves the study's time and shows the decision now in force.
+    const current = (await owner.get(`/api/studies/${id}/review`)).body.review.current;
+    const sup = await sign(owner, id, {
+      variantId: variantIds[1],
+      outcome: 'released',
+      shelfLifeMonths: 6,
+      supersedesId: current.find((d: { variantId: number }) => d.variantId === variantIds[1]).id,
+      supersedeReason: 'Re-tested: the separation was a filling fault',
+      comment: 'Filling fault, not the formula',
+    });
+    expect(sup.status, JSON.stringify(sup.body)).toBe(201);
+    const again = (await owner.get('/api/reviews')).body.decided.find((d: { studyId: number }) => d.studyId === id);
+    expect(again.variants.map((v: { outcome: string }) => v.outcome)).toEqual(['released_with_conditions', 'released']);
+
+    expect((await formulator.get('/api/reviews')).status).toBe(403);
+    expect((await technician.get('/api/reviews')).status).toBe(403);
+    expect((await otherOwner.get('/api/reviews')).body).toEqual({ queue: [], decided: [] }); // another lab sees none of it
   });
 });
 

@@ -280,6 +280,7 @@ describe('Release review', () => {
     expect(await a.getByTestId('review-reasons').locator('tbody tr').count()).toBeGreaterThan(2);
     expect(await b.getByTestId('photos-B').locator('img').count()).toBe(3);
     expect(await a.getByTestId('charts-A').getAttribute('href')).toBe(`/studies/${study.id}/analysis`);
+    expect(await page.getByTestId('variant-state-A').textContent()).toContain('Awaiting decision');
     await page.waitForFunction(() => [...document.images].every((i) => i.complete && i.naturalWidth > 0));
     await noBadText(page);
     await page.screenshot({ path: join(SHOTS, 'review-desktop.png') });
@@ -294,11 +295,16 @@ describe('Release review', () => {
     // EU Regulation 1223/2009 Art. 19(1)(c): 30 months or less needs a date of minimum durability.
     await expect.poll(() => a.getByTestId('decision-A-label-dating').textContent()).toContain('Best-before date on the pack');
     expect(await a.getByTestId('decision-A-label-dating').textContent()).toContain('19(1)(c)');
+    // Lot A was made 96 days ago: 6 months from then is less than 3 months away.
+    expect(await a.getByTestId('decision-A-best-before-flag').textContent()).toContain('less than 3 months away');
     expect(await a.getByTestId('decision-A-label-dating').textContent()).toContain("regulatory adviser has the last word");
     // 36 months would switch to the period after opening.
     await a.getByTestId('decision-A-shelf-life').locator('input').fill('36');
     await a.getByTestId('decision-A-shelf-life').locator('input').blur();
     await expect.poll(() => a.getByTestId('decision-A-label-dating').textContent()).toContain('Period after opening on the pack');
+    // 36 months is longer than the analysis suggests: a caution beside the field, and the comment becomes required.
+    expect(await a.getByTestId('decision-A-longer-caution').textContent()).toMatch(/Longer than the data suggest \(\d+ months?\): say why in the comment/);
+    await shot(page, a.locator('.decision-form'), 'review-longer-caution.png');
     await a.getByTestId('decision-A-shelf-life').locator('input').fill('6');
     await a.getByTestId('decision-A-shelf-life').locator('input').blur();
     await expect.poll(() => a.getByTestId('decision-A-label-dating').textContent()).toContain('Best-before date on the pack');
@@ -348,6 +354,8 @@ describe('Release review', () => {
     await expect.poll(() => page.getByTestId('review-status').getAttribute('data-status')).toBe('running');
     expect(await page.getByTestId('status-note').textContent()).toContain('Back in testing');
     expect(await page.getByTestId('decision-history').locator('li').count()).toBe(2);
+    expect(await page.getByTestId('variant-state-A').textContent()).toContain('Signed');
+    expect(await page.getByTestId('variant-state-B').textContent()).toContain('Back in testing');
 
     // The queue no longer lists the study.
     await page.getByTestId('nav-reviews').click();
@@ -447,6 +455,17 @@ describe('Release review', () => {
       }
     }
     const variantIds = [...new Set(small.batches.map((b) => b.variant.id))];
+
+    // Before it is submitted, the review page does not contradict itself: not submitted, not awaiting a decision.
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signIn(page, DEMO.owner);
+    await page.goto(`${rig.baseUrl}/reviews/${id}`);
+    await page.getByTestId('variant-A').waitFor();
+    expect(await page.getByTestId('variant-state-A').textContent()).toContain('Not submitted');
+    expect(await page.getByTestId('variant-A').textContent()).toContain('Not awaiting a decision: the study is running and has not been submitted for review.');
+    expect(await page.getByTestId('variant-A').textContent()).not.toContain('Awaiting decision');
+
     const sub = await formulator.post(`/api/studies/${id}/submit`, {
       summary: 'Day 0 only: a quick check before a larger study.',
       proposals: variantIds.map((variantId) => ({ variantId, shelfLifeMonths: 12, paoMonths: 6 })),
@@ -454,10 +473,7 @@ describe('Release review', () => {
     });
     expect(sub.status, JSON.stringify(sub.body)).toBe(200);
 
-    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
-    const problems = watchPage(page);
-    await signIn(page, DEMO.owner);
-    await page.goto(`${rig.baseUrl}/reviews/${id}`);
+    await page.reload();
     const a = page.getByTestId('variant-A');
     const b = page.getByTestId('variant-B');
     await a.waitFor();
@@ -476,6 +492,13 @@ describe('Release review', () => {
     await a.getByTestId('decision-A-phrase').filter({ hasText: 'Store below 25 °C.' }).click(); // a second click takes it out
     expect(await a.getByTestId('decision-A-conditions').inputValue()).toBe('Protect from freezing.');
     expect(await a.getByTestId('decision-A-shelf-life').locator('input').inputValue()).toBe('12'); // from the proposal
+    // A best-before date less than 3 months away is flagged (the lots were made on 2026-11-02).
+    await a.getByTestId('decision-A-shelf-life').locator('input').fill('1');
+    await a.getByTestId('decision-A-shelf-life').locator('input').blur();
+    await expect.poll(() => a.getByTestId('decision-A-best-before-flag').count()).toBe(1);
+    await a.getByTestId('decision-A-shelf-life').locator('input').fill('12');
+    await a.getByTestId('decision-A-shelf-life').locator('input').blur();
+    await expect.poll(() => a.getByTestId('decision-A-best-before-flag').count()).toBe(0);
     await a.getByTestId('decision-A-sign').click();
     await sign();
     await a.getByTestId('signature-block').waitFor();
@@ -513,6 +536,18 @@ describe('Release review', () => {
     await noBadText(page);
     await shot(page, history, 'review-decision-history.png');
     await page.screenshot({ path: join(SHOTS, 'review-superseded-full.png'), fullPage: true });
+
+    // Reviews lists it under Decided, with the outcome in force per variant, linking back here.
+    await page.getByTestId('nav-reviews').click();
+    const done = page.getByTestId(`decided-study-${id}`);
+    await done.waitFor();
+    expect(await page.getByTestId('decided-list').locator(':scope > li').first().getAttribute('data-testid')).toBe(`decided-study-${id}`); // latest first
+    expect(await page.getByTestId(`decided-${id}-A`).textContent()).toMatch(/A · Released, 9 months/);
+    expect(await page.getByTestId(`decided-${id}-B`).textContent()).toMatch(/B · Not released/);
+    await noBadText(page);
+    await page.screenshot({ path: join(SHOTS, 'reviews-decided.png'), fullPage: true });
+    await page.getByTestId(`open-decided-${id}`).click();
+    await page.waitForURL(new RegExp(`/reviews/${id}$`));
     expect(problems).toEqual([]);
     await page.close();
   });

@@ -1,6 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { join } from 'node:path';
-import { DEMO } from '../helpers/app';
+import { DEMO, DEMO_PASSWORD } from '../helpers/app';
 import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
 
 let rig: BrowserRig;
@@ -66,4 +66,54 @@ describe('navigation per role', () => {
       }
     });
   }
+});
+
+describe('changing one\'s password from the user menu', () => {
+  it('refuses a wrong current password, a mismatch and a weak password beside their fields, then changes it and keeps the session', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signInAs(page, rig.baseUrl, DEMO.technician);
+    // Signed in elsewhere too: that session ends with the change.
+    const elsewhere = await rig.t.signIn(DEMO.technician);
+    await page.getByTestId('me-menu').click();
+    await page.getByTestId('change-password').click();
+    const dialog = page.getByTestId('change-password-form');
+    await dialog.getByTestId('current-password').waitFor();
+    const errors = () => dialog.locator('.el-form-item__error').allTextContents();
+
+    // Nothing typed: each field says what it needs; nothing is sent.
+    await page.getByTestId('save-new-password').click();
+    await expect.poll(errors).toEqual(['Enter your current password', 'At least 10 characters; a few unrelated words make a good one', 'Type the new password again']);
+
+    // A mismatch, then a wrong current password (from the server), then a common one (from the server).
+    await dialog.getByTestId('current-password').fill('not-my-password');
+    await dialog.getByTestId('new-password').fill('lantern over the moor');
+    await dialog.getByTestId('confirm-password').fill('lantern over the mor');
+    await page.getByTestId('save-new-password').click();
+    await expect.poll(errors).toEqual(['Does not match the new password']);
+    await dialog.getByTestId('confirm-password').fill('lantern over the moor');
+    await page.getByTestId('save-new-password').click();
+    await expect.poll(errors).toEqual(['Wrong password']);
+    await page.waitForTimeout(300);
+    await page.screenshot({ path: join(SHOTS, 'change-password-wrong.png') });
+    await dialog.getByTestId('current-password').fill(DEMO_PASSWORD);
+    await dialog.getByTestId('new-password').fill('password123');
+    await dialog.getByTestId('confirm-password').fill('password123');
+    await page.getByTestId('save-new-password').click();
+    await expect.poll(errors).toEqual([expect.stringMatching(/common passwords/)]);
+
+    await dialog.getByTestId('new-password').fill('lantern over the moor');
+    await dialog.getByTestId('confirm-password').fill('lantern over the moor');
+    await page.getByTestId('save-new-password').click();
+    await expect.poll(() => page.locator('.el-message').textContent()).toContain('Your password has been changed. Your other session was signed out.');
+    await expect.poll(() => dialog.isVisible()).toBe(false);
+    // Still signed in here; the other session is gone; the new password signs in.
+    await page.getByTestId('nav-studies').click();
+    await page.waitForURL(/\/studies$/);
+    expect((await elsewhere.get('/api/auth/me')).status).toBe(401);
+    await rig.t.signIn(DEMO.technician, 'lantern over the moor');
+    // The refused wrong password (403) and common password (400) are expected; nothing else may fail.
+    expect(problems.filter((p) => !/status of 40[03]/.test(p))).toEqual([]);
+    await page.close();
+  });
 });

@@ -184,6 +184,33 @@ describe('DecisionForm', () => {
     w.unmount();
   }, MOUNT_TIMEOUT);
 
+  it('a shelf life longer than suggested: a caution beside it, and the comment is required before signing', async () => {
+    const w = mount(DecisionForm, { props: { ...props, suggestedMonths: 12 }, attachTo: document.body });
+    await w.find('[data-testid="decision-A-outcome-released"] input').setValue(true);
+    await flushPromises();
+    expect(w.find('[data-testid="decision-A-longer-caution"]').text()).toBe('Longer than the data suggest (12 months): say why in the comment');
+    await w.find('[data-testid="decision-A-sign"]').trigger('click');
+    await settle();
+    expect(w.findAll('.el-form-item__error').map((e) => e.text())).toEqual(['Longer than the data suggest (12 months): say why in the comment']);
+    expect(document.body.querySelector('[data-testid="sign-dialog-body"]')).toBeNull();
+    expect(posted).toBeNull();
+    // As suggested: no caution, no comment needed.
+    const input = w.find('[data-testid="decision-A-shelf-life"] input');
+    await input.setValue('12');
+    await input.trigger('change');
+    await flushPromises();
+    expect(w.find('[data-testid="decision-A-longer-caution"]').exists()).toBe(false);
+    w.unmount();
+  }, MOUNT_TIMEOUT);
+
+  it('flags a best-before date that has already passed', async () => {
+    const w = mount(DecisionForm, { props: { ...props, madeOn: '2020-01-15', proposal: { shelfLifeMonths: 12, paoMonths: null } }, attachTo: document.body });
+    await w.find('[data-testid="decision-A-outcome-released"] input').setValue(true);
+    await flushPromises();
+    expect(w.find('[data-testid="decision-A-best-before-flag"]').text()).toContain('The best-before date of the earliest lot (2021-01-15) has already passed.');
+    w.unmount();
+  }, MOUNT_TIMEOUT);
+
   it('adds and removes ready phrases with a click', async () => {
     const w = mount(DecisionForm, { props, attachTo: document.body });
     await w.find('[data-testid="decision-A-outcome-released_with_conditions"] input').setValue(true);

@@ -5,7 +5,7 @@
  */
 import type { SuggestResult } from '@shared/compute/suggest';
 import type { DecisionOutcome } from '@shared/domain';
-import type { DecisionInput, DecisionView, ReviewQueueItem, SubmissionView, SubmitInput } from '@shared/schemas/reviews';
+import type { DecidedStudyItem, DecisionInput, DecisionView, ReviewQueueItem, SubmissionView, SubmitInput } from '@shared/schemas/reviews';
 import { api } from '@/api/client';
 
 export interface ReviewVariant {
@@ -29,7 +29,8 @@ export interface StudyReview {
 }
 
 export const reviewApi = {
-  queue: async () => (await api.get<{ queue: ReviewQueueItem[] }>('/reviews')).queue,
+  /** The Reviews page: the queue (oldest submission first) and the decided studies (latest decision first). */
+  list: () => api.get<{ queue: ReviewQueueItem[]; decided: DecidedStudyItem[] }>('/reviews'),
   get: async (studyId: number | string) => (await api.get<{ review: StudyReview }>(`/studies/${studyId}/review`)).review,
   submit: async (studyId: number | string, input: SubmitInput) => (await api.post<{ review: StudyReview }>(`/studies/${studyId}/submit`, input)).review,
   decide: (studyId: number | string, input: DecisionInput) => api.post<{ decisionId: number; review: StudyReview }>(`/studies/${studyId}/decisions`, input),
