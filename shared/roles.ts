@@ -9,6 +9,22 @@ export function roleAtLeast(role: Role, needed: Role): boolean {
   return RANK[role] >= RANK[needed];
 }
 
+/** Who may open something that needs `minRole`, in words: "formulators and the lab's owner". */
+export function openToText(minRole: Role): string {
+  switch (minRole) {
+    case 'owner':
+      return "the lab's owner";
+    case 'formulator':
+      return "formulators and the lab's owner";
+    case 'technician':
+      return 'every member of the lab';
+  }
+}
+
+export function isRole(x: unknown): x is Role {
+  return typeof x === 'string' && (ROLES as readonly string[]).includes(x);
+}
+
 export const ROLE_LABELS: Record<Role, string> = {
   technician: 'Technician',
   formulator: 'Formulator',

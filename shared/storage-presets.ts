@@ -155,33 +155,52 @@ export interface Caution {
   text: string;
 }
 
-const LOCAL_RULES = 'Follow your lab\'s safety rules and local regulations.';
+/** The line that follows a condition's cautions wherever they are listed in full. */
+export const SAFETY_RULES = 'Follow your lab\'s safety rules and local regulations.';
 
-/** Short safety cautions for a condition (hot ovens, freeze-thaw and freezers, UV, centrifuges). */
-export function conditionCautions(c: {
+/** What a caution needs to know of a condition (a storage condition row, or part of one). */
+export interface CautionSubject {
   kind: string;
   setpointC?: number | null;
   lowC?: number | null;
   highC?: number | null;
   lightSource?: string | null;
-}): Caution[] {
+}
+
+/**
+ * Short safety cautions for a condition (hot ovens, freeze-thaw and freezers, UV, centrifuges),
+ * without the closing line: list them followed by SAFETY_RULES.
+ */
+export function conditionCautions(c: CautionSubject): Caution[] {
   const out: Caution[] = [];
   const hottest = c.kind === 'constant' ? c.setpointC : c.kind === 'cycling' ? c.highC : null;
   const coldest = c.kind === 'constant' ? c.setpointC : c.kind === 'cycling' ? c.lowC : null;
   if (hottest != null && hottest >= HOT_CAUTION_C) {
-    out.push({ key: 'hot', text: `Hot surfaces and samples: use heat-resistant gloves when opening the oven. ${LOCAL_RULES}` });
+    out.push({
+      key: 'hot',
+      text: 'Hot surfaces and samples: use heat-resistant gloves when opening the oven, and let containers cool before opening them.',
+    });
   }
-  if (c.kind === 'cycling' || (coldest != null && coldest < 0)) {
+  if (c.kind === 'cycling' || (coldest != null && coldest <= 0)) {
     out.push({
       key: 'cold',
-      text: `Freezer or dry ice can cause cold burns: wear insulated gloves. Dry ice gives off carbon dioxide: use it only with good ventilation, never in a sealed container or small closed room. ${LOCAL_RULES}`,
+      text: 'Cold surfaces, freezers and dry ice can cause cold burns: wear insulated gloves. Dry ice, if used, gives off carbon dioxide: use it only with good ventilation, never in a sealed container or small closed room.',
     });
   }
   if (c.kind === 'light' && c.lightSource === 'uv_cabinet') {
-    out.push({ key: 'uv', text: `UV light harms eyes and skin: keep the cabinet closed while the lamp is on. ${LOCAL_RULES}` });
+    out.push({
+      key: 'uv',
+      text: 'UV light harms eyes and skin: keep the cabinet closed while the lamp is on; switch it off, or wear UV-blocking eye protection and gloves, before opening.',
+    });
   }
   if (c.kind === 'mechanical') {
-    out.push({ key: 'centrifuge', text: `Balance the rotor and keep the lid closed until it has stopped. ${LOCAL_RULES}` });
+    out.push({ key: 'centrifuge', text: 'Centrifuge: balance the rotor, and keep the lid closed until it has stopped.' });
   }
   return out;
+}
+
+/** The cautions of several conditions as lines, each once, then SAFETY_RULES; empty when none apply. */
+export function cautionLines(conditions: readonly CautionSubject[]): string[] {
+  const lines = [...new Set(conditions.flatMap((c) => conditionCautions(c).map((x) => x.text)))];
+  return lines.length ? [...lines, SAFETY_RULES] : [];
 }

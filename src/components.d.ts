@@ -83,6 +83,7 @@ declare module 'vue' {
     RouterLink: typeof import('vue-router')['RouterLink']
     RouterView: typeof import('vue-router')['RouterView']
     ScalePanel: typeof import('./components/formulas/ScalePanel.vue')['default']
+    ScrollX: typeof import('./components/ScrollX.vue')['default']
     SignatureBlock: typeof import('./components/review/SignatureBlock.vue')['default']
     StateBadge: typeof import('./components/study/StateBadge.vue')['default']
     StateLegend: typeof import('./components/study/StateLegend.vue')['default']

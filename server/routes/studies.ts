@@ -317,7 +317,17 @@ export function studyRoutes(db: Db): Router {
         product: products.name,
         variant: { code: variants.code, name: variants.name },
         batch: { id: batches.id, lotCode: batches.lotCode, madeOn: batches.madeOn, packaging: batches.packaging },
-        condition: { id: storageConditions.id, name: storageConditions.name, location: storageConditions.location, kind: storageConditions.kind },
+        condition: {
+          id: storageConditions.id,
+          name: storageConditions.name,
+          location: storageConditions.location,
+          kind: storageConditions.kind,
+          // for its safety cautions
+          setpointC: storageConditions.setpointC,
+          lowC: storageConditions.lowC,
+          highC: storageConditions.highC,
+          lightSource: storageConditions.lightSource,
+        },
       })
       .from(samples)
       .innerJoin(studies, eq(studies.id, samples.studyId))

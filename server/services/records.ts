@@ -216,7 +216,8 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
         ),
       )
       .orderBy(desc(checkpoints.dueDate)),
-    // The control condition's latest reading of the same batch, per attribute (for compared attributes).
+    // The control condition's latest reading of the same batch up to this checkpoint's window end, per
+    // attribute (for compared attributes): a control read weeks later is not what this sample was compared with.
     db
       .select({ o: observations, label: checkpoints.label, code: samples.code })
       .from(observations)
@@ -230,6 +231,7 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
           eq(studyConditions.role, 'control'),
           eq(observations.voided, false),
           sql`${samples.id} <> ${ctx.sample.id}`,
+          sql`${checkpoints.dueDate} <= ${addDays(ctx.checkpoint.dueDate, ctx.checkpoint.windowAfter)}`,
         ),
       )
       .orderBy(desc(checkpoints.dueDate)),
@@ -246,7 +248,17 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
       .orderBy(asc(samples.labelOrder)),
     photosFor(db, labId, { sampleId: ctx.sample.id, checkpointId }),
     db
-      .select({ id: storageConditions.id, name: storageConditions.name, location: storageConditions.location })
+      .select({
+        id: storageConditions.id,
+        name: storageConditions.name,
+        location: storageConditions.location,
+        kind: storageConditions.kind,
+        setpointC: storageConditions.setpointC,
+        lowC: storageConditions.lowC,
+        highC: storageConditions.highC,
+        lightSource: storageConditions.lightSource,
+        role: studyConditions.role,
+      })
       .from(studyConditions)
       .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
       .where(eq(studyConditions.id, ctx.sample.studyConditionId)),
@@ -270,7 +282,8 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
     const cur = current.find((c) => c.o.studyAttributeId === sa.id);
     const b = base.get(sa.id) ?? null;
     const prev = previous.find((p) => p.o.studyAttributeId === sa.id);
-    const ctl = a.kind === 'compared' ? control.find((c) => c.o.studyAttributeId === sa.id) : undefined;
+    // A control sample is not compared with itself: no control reference on the control condition.
+    const ctl = a.kind === 'compared' && cond[0].role !== 'control' ? control.find((c) => c.o.studyAttributeId === sa.id) : undefined;
     let message = '';
     if (cur) {
       const v = valueOf(a.kind, cur.o);

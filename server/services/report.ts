@@ -8,7 +8,8 @@ import { createRequire } from 'node:module';
 import { join } from 'node:path';
 import * as echarts from 'echarts';
 import { and, asc, eq, inArray } from 'drizzle-orm';
-import { COMPARED_LEVEL_LABELS, type ComparedLevel, type Criterion } from '../../shared/compute/criteria';
+import { COMPARED_LEVEL_LABELS, type ComparedLevel } from '../../shared/compute/criteria';
+import { criterionText, formatDecimals } from '../../shared/criterion-text';
 import { CONDITION_ROLE_LABELS, DECISION_OUTCOME_LABELS, PRODUCT_TYPE_LABELS, STUDY_STATUS_LABELS, type ProductType } from '../../shared/domain';
 import type { Db } from '../db/client';
 import { auditLog, batches, labs, photos } from '../db/schema';
@@ -37,26 +38,6 @@ pdfmake.setFonts({
 pdfmake.setUrlAccessPolicy(() => false);
 pdfmake.setLocalAccessPolicy((p) => p.startsWith(INTER));
 
-export function criterionText(c: Criterion, unit: string | null): string {
-  const u = unit ? ` ${unit}` : '';
-  switch (c.kind) {
-    case 'range':
-      return c.min != null && c.max != null ? `${c.min} to ${c.max}${u}` : c.min != null ? `at least ${c.min}${u}` : `at most ${c.max}${u}`;
-    case 'change_abs':
-      return `within ±${c.max}${u} of day 0`;
-    case 'change_pct':
-      return `within ±${c.max} % of day 0`;
-    case 'worst_grade':
-      return `grade ${c.grade} at worst`;
-    case 'worst_compared':
-      return `${COMPARED_LEVEL_LABELS[c.level].toLowerCase()} at worst vs control`;
-    case 'must_pass':
-      return 'must pass';
-    default:
-      return 'recorded only';
-  }
-}
-
 const METHOD_WORDS: Record<string, string> = {
   regression: 'regression (ICH Q1E)',
   observed: 'last passing checkpoint',
@@ -75,8 +56,17 @@ function printable<T>(x: T): T {
   return x;
 }
 
-const fmtValue = (v: unknown) =>
-  v == null ? '—' : typeof v === 'boolean' ? (v ? 'pass' : 'fail') : typeof v === 'string' ? (COMPARED_LEVEL_LABELS[v as ComparedLevel] ?? v) : String(v);
+/** A reading in its attribute's terms; numbers with the attribute's decimals ("5.50", not "5.5"). */
+const fmtValue = (v: unknown, decimals: number | null = null) =>
+  v == null
+    ? '—'
+    : typeof v === 'boolean'
+      ? (v ? 'pass' : 'fail')
+      : typeof v === 'string'
+        ? (COMPARED_LEVEL_LABELS[v as ComparedLevel] ?? v)
+        : typeof v === 'number' && decimals != null
+          ? formatDecimals(v, decimals)
+          : String(v);
 const VERDICT: Record<string, string> = { pass: 'pass', fail: 'FAIL', no_criterion: '', needs_baseline: 'no day 0', not_done: 'not done' };
 
 type PdfNodeInfo = { headlineLevel?: number; style?: unknown; table?: unknown; columns?: unknown; stack?: boolean };
@@ -200,7 +190,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
   for (const s of a.series) {
     const attr = a.attributes.find((x) => x.id === s.studyAttributeId)!;
     for (const p of s.points) {
-      obsBody.push([p.sampleCode, variantName(s.variantId).split(' ·')[0], s.lotCode, condName(s.studyConditionId), p.label, attr.name, `${fmtValue(p.value)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`, { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail' }]);
+      obsBody.push([p.sampleCode, variantName(s.variantId).split(' ·')[0], s.lotCode, condName(s.studyConditionId), p.label, attr.name, `${fmtValue(p.value, attr.kind === 'measured' ? attr.decimals : null)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`, { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail' }]);
     }
   }
 
@@ -275,7 +265,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       h('Schedule'),
       table(['*', 'auto', 'auto', 'auto'], ['Condition', 'Checkpoint', 'Due', 'State'], d.checkpoints.map((c) => [condName(c.studyConditionId), c.label, c.dueDate, c.state.charAt(0).toUpperCase() + c.state.slice(1) + (c.missedReason ? ` (${c.missedReason})` : '')])),
       h('Attributes and acceptance criteria'),
-      table(['*', 'auto'], ['Attribute', 'Accepted when'], a.attributes.map((x) => [x.name, criterionText(x.criterion, x.unit)])),
+      table(['*', 'auto'], ['Attribute', 'Accepted when'], a.attributes.map((x) => [x.name, criterionText(x.criterion, { unit: x.unit, scale: x.scale })])),
       { text: 'Default criteria are common practice with no published source; the lab sets its own.', style: 'muted', margin: [0, 3, 0, 0] },
       h('Charts'),
       ...(charts.length ? charts : [{ text: 'No measured values yet.', italics: true }]),

@@ -16,6 +16,7 @@ import {
   type Offset,
 } from '../../shared/compute/schedule';
 import type { ConditionKind, StudyStatus } from '../../shared/domain';
+import { cautionLines } from '../../shared/storage-presets';
 import type {
   Amendment,
   AmendmentInput,
@@ -155,22 +156,12 @@ export async function checkPlan(db: DbOrTx, labId: number, plan: StudyPlanInput)
 
 export function previewPlan(plan: StudyPlanInput, checked: CheckedPlan): PlanPreview {
   const warnings: string[] = [];
-  const cautions = new Set<string>();
   const perCondition = plan.conditions.map((pc) => {
     const row = checked.conditionRows.find((c) => c.id === pc.conditionId)!;
     const schedule = generateSchedule({ startDate: plan.startDate, offsets: pc.offsets, cycleHours: cycleHoursOf(row) ?? undefined });
     const weekend = schedule.filter((s) => s.warnings.includes('weekend'));
     if (weekend.length) {
       warnings.push(`${row.name}: ${weekend.map((s) => `${s.label} (${s.dueDate})`).join(', ')} fall on a weekend; the window allows moving the check to a weekday.`);
-    }
-    if ((row.kind === 'constant' && (row.setpointC ?? 0) >= 40) || (row.kind === 'cycling' && (row.highC ?? 0) >= 40)) {
-      cautions.add('Ovens at 40 °C and above: surfaces and containers are hot; use heat-resistant gloves and let jars cool before opening.');
-    }
-    if (row.kind === 'cycling' || (row.kind === 'constant' && (row.setpointC ?? 20) <= 0)) {
-      cautions.add('Freezing and dry ice: wear cryogenic gloves; keep dry ice in a ventilated space, never in a sealed container.');
-    }
-    if (row.kind === 'light' && row.lightSource === 'uv_cabinet') {
-      cautions.add('UV cabinets: do not look at the lamps; keep the door closed while they are on.');
     }
     return {
       conditionId: row.id,
@@ -189,14 +180,13 @@ export function previewPlan(plan: StudyPlanInput, checked: CheckedPlan): PlanPre
   const compared = checked.attributeRows.filter((a) => a.kind === 'compared');
   if (!hasControl && compared.length) warnings.push(`${compared.map((a) => a.name).join(', ')} compare with a control that this plan does not have.`);
   const sampleCount = plan.batchIds.length * plan.conditions.length * plan.samplesPerCell;
-  cautions.add('Local safety rules and your safety assessor have the last word on handling preservatives, hot ovens and dry ice.');
   return {
     sampleCount,
     containerCount: sampleCount,
     gramsPerBatch: plan.fillGrams ? Math.round(plan.conditions.length * plan.samplesPerCell * plan.fillGrams * 100) / 100 : null,
     perCondition,
     warnings,
-    cautions: [...cautions],
+    cautions: cautionLines(plan.conditions.map((pc) => checked.conditionRows.find((c) => c.id === pc.conditionId)!)),
   };
 }
 
@@ -622,6 +612,7 @@ export async function studyDetail(db: Db, labId: number, studyId: number, today:
       name: a.name,
       kind: a.kind,
       unit: a.unit,
+      decimals: a.decimals,
       criterion: sa.criterion,
     })),
     samples: sampleRows.map((r) => ({

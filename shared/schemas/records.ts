@@ -4,7 +4,7 @@
  */
 import { z } from 'zod';
 import type { Criterion, Evaluation } from '../compute/criteria';
-import type { StoredVerdict } from '../domain';
+import type { ConditionKind, ConditionRole, LightSource, StoredVerdict } from '../domain';
 import type { Attribute, StudyCheckpoint } from './studies';
 
 const reason = z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000, 'At most 2000 characters');
@@ -88,7 +88,10 @@ export interface RecordAttribute {
   /** Day-0 value of this sample (or of its batch's day-0 reading). */
   baseline: ReferenceValue | null;
   previous: ReferenceValue | null;
-  /** For compared attributes: the control sample's latest value. */
+  /**
+   * For compared attributes: the control sample's latest value at or before this checkpoint's window
+   * end. Always null on a sample of the control condition itself.
+   */
   control: ReferenceValue | null;
   current: ObservationView | null;
 }
@@ -115,7 +118,18 @@ export interface RecordSheet {
     product: string;
     variant: { code: string; name: string };
     lotCode: string;
-    condition: { id: number; name: string; location: string };
+    /** The storage condition, with what its safety cautions depend on, and its role in this study. */
+    condition: {
+      id: number;
+      name: string;
+      location: string;
+      kind: ConditionKind;
+      setpointC: number | null;
+      lowC: number | null;
+      highC: number | null;
+      lightSource: LightSource | null;
+      role: ConditionRole;
+    };
   };
   checkpoint: StudyCheckpoint;
   /** Whether recording is open now, and why not when it is not. */

@@ -200,6 +200,8 @@ export interface PlanAttribute {
   name: string;
   kind: Attribute['kind'];
   unit: string | null;
+  /** Decimals a measured value is shown with. */
+  decimals: number;
   criterion: Criterion;
 }
 
@@ -226,7 +228,7 @@ export interface PlanPreview {
   perCondition: { conditionId: number; name: string; checkpoints: PreviewCheckpoint[] }[];
   /** Plain-language warnings: weekend checkpoints, no control, inactive condition... */
   warnings: string[];
-  /** Safety cautions for the conditions chosen (hot ovens, freezing). */
+  /** Safety cautions for the conditions chosen (hot ovens, freezing, UV, centrifuges; shared/storage-presets.ts), then the lab's-rules line; empty when none apply. */
   cautions: string[];
 }
 

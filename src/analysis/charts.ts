@@ -477,8 +477,9 @@ export function measuredChart(a: StudyAnalysis, attr: AnalysisAttribute, groupin
       if (isNum(L.lower)) markLines.push({ yAxis: L.lower, name: `lower limit ${num(L.lower, dec)}`, lineStyle: { color: '#5b6b73', type: 'dashed' } });
       if (isNum(L.upper)) markLines.push({ yAxis: L.upper, name: `upper limit ${num(L.upper, dec)}`, lineStyle: { color: '#5b6b73', type: 'dashed' } });
     } else {
-      // labels spread along the line so that close limits of different variants stay readable
-      const spots = ['insideEndTop', 'insideStartTop', 'insideMiddleTop', 'insideEndBottom'] as const;
+      // labels spread along the line so that close limits of different variants stay readable; none at
+      // the right end, where the fit's crossing marker writes its months above the plot
+      const spots = ['insideStartTop', 'insideMiddleTop', 'insideStartBottom', 'insideMiddleBottom'] as const;
       lims.forEach((l, i) => {
         const v = a.variants.find((x) => x.id === l.variantId);
         const color = grouping === 'condition' ? (lines.find((x) => x.variant.id === l.variantId)?.color ?? INK) : INK;
@@ -499,7 +500,8 @@ export function measuredChart(a: StudyAnalysis, attr: AnalysisAttribute, groupin
         markLine: {
           silent: true,
           symbol: 'none',
-          label: { formatter: '{b}', position: 'insideEndTop', color: AXIS_TEXT, fontSize: 11 },
+          // at the left end, clear of the axis name: the crossing marker's "16.9 mo" sits above the plot's right part
+          label: { formatter: '{b}', position: 'insideStartTop', padding: [0, 0, 0, 24], color: AXIS_TEXT, fontSize: 11 },
           data: markLines,
         },
         z: 0,

@@ -156,9 +156,56 @@ export const BASIS_LABELS: Readonly<Record<SuggestResult['basis'], string>> = {
   none: 'No figure yet',
 };
 
-/** The headline of a suggestion: "11 months", or "None yet". */
-export function suggestionHeadline(r: Pick<SuggestResult, 'months'>): string {
-  return isNum(r.months) ? monthsText(r.months, 0) : 'None yet';
+/**
+ * What a suggestion amounts to. A figure of at least 1 month; under 1 month because something failed
+ * (at the first checkpoint, or a trend already at its limit): a real result; under 1 month only
+ * because there is little data (one week passed, projected or capped): too early; no figure at all.
+ */
+export type SuggestionState = 'figure' | 'failed_early' | 'too_early' | 'none';
+
+type Suggestion = Pick<SuggestResult, 'months' | 'governingReason' | 'reasons'>;
+
+export function suggestionState(r: Suggestion): SuggestionState {
+  if (!isNum(r.months)) return 'none';
+  if (r.months >= 1) return 'figure';
+  const gov = r.governingReason == null ? undefined : r.reasons[r.governingReason];
+  if (!gov) return 'too_early';
+  // Read from the governing reason (shared/compute/suggest.ts): an observed line is a real-time
+  // failure; a Q10 line names the attributes that failed (else "all attributes" passed); a regression
+  // figure is the trend meeting its limit unless it was capped for lack of real-time data.
+  const failed =
+    gov.method === 'observed' ||
+    (gov.method === 'q10' && gov.attribute !== 'all attributes') ||
+    (gov.method === 'regression' && !gov.rule.includes('Capped:'));
+  return failed ? 'failed_early' : 'too_early';
+}
+
+/** The headline of a suggestion: "11 months", "Under 1 month" (failed early), "Too early to tell" or "Not enough data yet". */
+export function suggestionHeadline(r: Suggestion): string {
+  switch (suggestionState(r)) {
+    case 'figure':
+      return monthsText(r.months, 0);
+    case 'failed_early':
+      return 'Under 1 month';
+    case 'too_early':
+      return 'Too early to tell';
+    case 'none':
+      return 'Not enough data yet';
+  }
+}
+
+/** A line under the headline when it is not a plain figure; null for a figure. */
+export function suggestionNote(r: Suggestion): string | null {
+  switch (suggestionState(r)) {
+    case 'figure':
+      return null;
+    case 'failed_early':
+      return 'Failed early: see the reasons.';
+    case 'too_early':
+      return 'The data so far support less than 1 month: record more checkpoints.';
+    case 'none':
+      return null; // the confidence note says what is missing
+  }
 }
 
 /** A file name part from any text: lower case letters, digits and dashes. */

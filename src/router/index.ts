@@ -60,7 +60,9 @@ router.beforeEach(async (to) => {
   await session.load();
   if (to.meta.public) return session.user && to.name === 'sign-in' ? { name: 'bench' } : true;
   if (!session.user) return { name: 'sign-in', query: to.fullPath !== '/' ? { next: to.fullPath } : {} };
-  if (to.meta.minRole && !session.can(to.meta.minRole)) return { name: 'not-allowed', query: { page: String(to.meta.title ?? '') } };
+  if (to.meta.minRole && !session.can(to.meta.minRole)) {
+    return { name: 'not-allowed', query: { page: String(to.meta.title ?? ''), minRole: to.meta.minRole } };
+  }
   return true;
 });
 

@@ -17,7 +17,7 @@ let cat: Catalogue;
 
 interface Study {
   id: number;
-  samples: { id: number; code: string; studyConditionId: number }[];
+  samples: { id: number; code: string; studyConditionId: number; batchId: number }[];
   checkpoints: { id: number; label: string; studyConditionId: number; state: string }[];
   conditions: { id: number; role: string }[];
   attributes: { id: number; code: string }[];
@@ -130,6 +130,28 @@ describe('recording a checkpoint', () => {
     expect(res.status).toBe(200);
     expect(res.body.sheet.checkpoint.state).not.toBe('done');
     expect(res.body.sheet.attributes[1].current).toMatchObject({ verdict: 'not_done', notDoneReason: 'Viscometer out for calibration' });
+  });
+});
+
+describe('the control value beside compared attributes', () => {
+  it('is the control reading up to this checkpoint, not a later one; a control sample gets none, and the sheet names its condition', async () => {
+    const s4 = await startStudy();
+    const [fridge, oven] = [0, 1].map((c) => s4.samples.find((x) => x.studyConditionId === s4.conditions[c].id && x.batchId === cat.batchIds[0])!);
+    const odor = (v: string) => ({ entries: [{ studyAttributeId: attr(s4, 'odor'), value: v }] });
+    expect((await put(technician, fridge.code, cp(s4, 'Day 0', 0).id, odor('no_change'))).status).toBe(200);
+    // Week 4 is three weeks ahead: a formulator records it early, as if read later than week 1.
+    expect((await put(formulator, fridge.code, cp(s4, 'Week 4', 0).id, { ...odor('slight'), allowEarly: true })).status).toBe(200);
+    const odorOf = (sheet: { attributes: { attribute: { code: string }; control: unknown }[] }) => sheet.attributes.find((a) => a.attribute.code === 'odor')!;
+
+    const w1 = (await technician.get(`/api/samples/${oven.code}/checkpoints/${cp(s4, 'Week 1').id}`)).body.sheet;
+    expect(odorOf(w1).control).toEqual({ value: 'no_change', label: 'Day 0', sampleCode: fridge.code });
+    const w4 = (await technician.get(`/api/samples/${oven.code}/checkpoints/${cp(s4, 'Week 4').id}`)).body.sheet;
+    expect(odorOf(w4).control).toEqual({ value: 'slight', label: 'Week 4', sampleCode: fridge.code });
+    expect(w4.sample.condition).toMatchObject({ kind: 'constant', setpointC: 45, role: 'accelerated' });
+
+    const own = (await technician.get(`/api/samples/${fridge.code}/checkpoints/${cp(s4, 'Week 1', 0).id}`)).body.sheet;
+    expect(own.sample.condition).toMatchObject({ role: 'control', setpointC: 4 });
+    expect(own.attributes.every((a: { control: unknown }) => a.control === null)).toBe(true);
   });
 });
 

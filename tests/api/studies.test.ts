@@ -1,6 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { and, eq, sql } from 'drizzle-orm';
-import { auditLog, checkpoints, samples, studies } from '../../server/db/schema';
+import { auditLog, checkpoints, samples, storageConditions, studies } from '../../server/db/schema';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 import { createTestApp, DEMO, type Client, type TestApp } from '../helpers/app';
 import { makeCatalogue, planFor, type Catalogue } from '../helpers/fixtures';
@@ -76,10 +76,33 @@ describe('plan, preview and start', () => {
     expect(p.gramsPerBatch).toBe(90); // 2 conditions x 1 sample x 45 g
     expect(p.perCondition[0].checkpoints.map((c: { dueDate: string }) => c.dueDate)).toEqual(['2026-11-02', '2026-11-09', '2026-11-30']);
     expect(p.cautions.join(' ')).toMatch(/heat-resistant gloves/);
+    expect(p.cautions.at(-1)).toMatch(/local regulations/);
     const noControl = await formulator.post('/api/studies/preview', { ...plan, conditions: [plan.conditions[1]], startDate: '2026-11-07' });
     const warnings = noControl.body.preview.warnings.join(' ');
     expect(warnings).toMatch(/No control condition/);
     expect(warnings).toMatch(/weekend/); // 2026-11-07 is a Saturday
+  });
+
+  it('previews the centrifuge caution with the others, and none for a plain fridge and room plan', async () => {
+    const [{ id: spin }] = await t.db
+      .insert(storageConditions)
+      .values({ labId: t.labs[0].id, name: 'Centrifuge preview', kind: 'mechanical', rpm: 3000, minutes: 30, radiusCm: 10, location: 'bench' })
+      .$returningId();
+    const plan = planFor(cat);
+    const res = await formulator.post('/api/studies/preview', {
+      ...plan,
+      conditions: [...plan.conditions, { conditionId: spin, role: 'stress', template: 'custom', offsets: [{ unit: 'day', n: 0 }] }],
+    });
+    expect(res.status, JSON.stringify(res.body)).toBe(200);
+    const cautions: string[] = res.body.preview.cautions;
+    expect(cautions.some((c) => /heat-resistant gloves/.test(c))).toBe(true);
+    expect(cautions.some((c) => /balance the rotor/i.test(c))).toBe(true);
+    expect(cautions.at(-1)).toMatch(/local regulations/);
+    const mild = await formulator.post('/api/studies/preview', {
+      ...plan,
+      conditions: [plan.conditions[0], { ...plan.conditions[1], conditionId: cat.conditions.room, role: 'real_time' }],
+    });
+    expect(mild.body.preview.cautions).toEqual([]);
   });
 
   it('starts a study: samples with unique codes and dated checkpoints, in one go, audited', async () => {

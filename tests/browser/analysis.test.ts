@@ -180,7 +180,7 @@ describe('Analysis page', () => {
     // a suggested shelf life per variant with its reasons table, basis, label dating and caution
     for (const code of ['A', 'B']) {
       const card = page.getByTestId(`suggestion-${code}`);
-      expect(await card.getByTestId('suggested-months').textContent()).toMatch(/^(\d+ months?|None yet)$/);
+      expect(await card.getByTestId('suggested-months').textContent()).toMatch(/^(\d+ months?|Not enough data yet|Too early to tell|Under 1 month)$/);
       // the reasons that give a figure or a flag first; all of them one click away
       const shown = await card.getByTestId('reasons-table').locator('tbody tr').count();
       expect(shown).toBeGreaterThanOrEqual(3);
@@ -304,6 +304,8 @@ describe('Analysis page', () => {
     await signIn(page, DEMO.technician);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
     await page.waitForURL(/\/not-allowed/);
+    // The page says which roles may open it (the route's minRole), not always "the owner".
+    expect(await page.getByTestId('not-allowed-roles').textContent()).toContain("Analysis is open to formulators and the lab's owner");
     await page.close();
   });
 });
@@ -339,6 +341,13 @@ describe('Compare page', () => {
     expect(bottom).toBeLessThanOrEqual(900);
     const text = await page.locator('.compare-page').innerText();
     expect(text).not.toMatch(/\bNaN\b|\bundefined\b|Infinity/);
+    // On a tablet the matrix scrolls inside its card, shaded at the edge where more columns wait, with the
+    // attribute column kept; the page itself does not scroll sideways.
+    await page.setViewportSize(VIEWPORTS.tablet);
+    await expect.poll(() => page.locator('.matrix-wrap .scroll-x').getAttribute('data-more-right')).toBe('true');
+    expect(await page.evaluate(() => document.documentElement.scrollWidth <= window.innerWidth)).toBe(true);
+    expect(await matrix.locator('tbody th.attr').first().evaluate((el) => getComputedStyle(el).position)).toBe('sticky');
+    await page.screenshot({ path: join(SHOTS, 'compare-tablet.png') });
     expect(problems).toEqual([]);
     await page.close();
   });

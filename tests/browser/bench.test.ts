@@ -148,6 +148,8 @@ describe('Bench on a tablet', () => {
     expect(text).toContain('oven 2');
     expect(text).toContain('50 mL PET jar, PP lid');
     expect(text).toMatch(/Record (Day|Week)/);
+    // The 45 °C oven's caution on the sample page too.
+    expect(await page.getByTestId('sample-cautions').getByTestId('caution-hot').textContent()).toContain('heat-resistant gloves');
     expect(await page.getByTestId('sample-checkpoints').locator('li').count()).toBe(6);
     expect(await page.getByTestId('sample-checkpoints').locator('li[data-state="missed"]').count()).toBe(1);
     await settle(page);
@@ -250,7 +252,7 @@ describe('Draft study and empty Bench', () => {
     const other = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const otherProblems = watchPage(other);
     await signIn(other, DEMO.otherTechnician);
-    await expect.poll(() => other.locator('.empty').textContent()).toContain('Your formulator plans studies');
+    await expect.poll(() => other.locator('.empty').textContent()).toContain('A formulator or the owner plans studies');
     await settle(other);
     await other.screenshot({ path: join(SHOTS, 'bench-empty-tablet.png'), fullPage: true });
     await other.goto(`${rig.baseUrl}/studies/${study.id}`);

@@ -179,8 +179,8 @@ describe('formulas', () => {
     expect(await summary.textContent()).toContain('0 removed');
     const row = (name: string) => page.getByTestId('compare-row').filter({ hasText: name });
     const cells = async (name: string) => (await row(name).locator('td').allInnerTexts()).map((s) => s.replace(/\s+/g, ' ').trim());
-    expect(await cells('Glyceryl stearate SE')).toEqual(['Changed', 'Glyceryl stearate SE Glyceryl Stearate SE', 'B', '5.00 %', 'B', '6.00 %', '+1.00 %']);
-    expect(await cells('Purified water')).toEqual(['Changed', 'Purified water Aqua', 'A', '76.50 %', 'A', '75.50 %', '−1.00 %']);
+    expect(await cells('Glyceryl stearate SE')).toEqual(['Changed', 'Glyceryl stearate SE Glyceryl Stearate SE', 'B', '5.00 %', 'B', '6.00 %', '+1.00 % w/w']);
+    expect(await cells('Purified water')).toEqual(['Changed', 'Purified water Aqua', 'A', '76.50 %', 'A', '75.50 %', '−1.00 % w/w']);
     expect((await cells('Sweet almond oil'))[0]).toBe('Same');
     expect((await cells('Glycerin 99.5 %'))[0]).toBe('Same');
     // Changed figures are marked in the cell, not by the row's colour alone.

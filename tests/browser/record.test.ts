@@ -152,6 +152,9 @@ describe('Record on a tablet', () => {
     expect(head).toContain('oven 2');
     expect(head).toMatch(/T\d+-A/);
     expect(head).toContain('Due today');
+    // The oven's safety caution where the technician works, then the lab's rules (shared wording).
+    expect(await page.getByTestId('record-cautions').getByTestId('caution-hot').textContent()).toContain('heat-resistant gloves');
+    expect(await page.getByTestId('record-cautions').getByTestId('caution-rules').textContent()).toContain('local regulations');
     // Beside each input: day 0, and the control's latest value for compared attributes.
     expect(await card(page, 'ph').getByTestId('ref-baseline').textContent()).toContain('5.3');
     expect(await card(page, 'viscosity').getByTestId('ref-baseline').textContent()).toContain('12000 mPa·s');
@@ -260,6 +263,15 @@ describe('Record on a tablet', () => {
     // Last sample of the oven at Week 1: "next" goes back to the Bench.
     await page.getByTestId('save-next').click();
     await page.waitForURL(/\/bench$/);
+
+    // A control sample: no oven caution, and no "Control" value beside compared attributes (it is the control).
+    await quiet(page);
+    const fridge = fridgeSamples()[0];
+    await page.goto(`${rig.baseUrl}/samples/${fridge.code}/checkpoints/${cp('Week 1', 0).id}`);
+    await expect.poll(() => page.getByTestId('record-sample-code').textContent()).toBe(fridge.code);
+    await card(page, 'odor').getByTestId('ref-baseline').waitFor();
+    expect(await card(page, 'odor').getByTestId('ref-control').count()).toBe(0);
+    expect(await page.getByTestId('record-cautions').count()).toBe(0);
 
     // Correct the first sample's pH with a reason; the history shows both versions.
     await quiet(page);

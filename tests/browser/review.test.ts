@@ -571,4 +571,14 @@ describe('Release review', () => {
     expect(problems).toEqual([]);
     await page.close();
   });
+
+  it("another lab's study: no such study, and nothing to print or download", async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    await signIn(page, DEMO.otherOwner);
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/report`);
+    await page.getByText('No such study in your lab').waitFor();
+    for (const id of ['report-print', 'report-pdf', 'report-csv']) expect(await page.getByTestId(id).count(), id).toBe(0);
+    expect(await page.getByText('Audit trail CSV').count()).toBe(0);
+    await page.close();
+  });
 });

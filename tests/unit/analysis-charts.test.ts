@@ -7,9 +7,9 @@ import type { StudyAnalysis as ServerStudyAnalysis } from '../../server/services
 import { deltaEChart, fitCurves, fitEnd, heatGrid, HEAT_PALETTE, heatSteps, LARGE_POINTS, measuredChart, niceRange, SERIES_NAMES, type ChartOption } from '../../src/analysis/charts';
 import { compareCell, compareMatrix, firstFailureText, pickVariants } from '../../src/analysis/compare';
 import { toCsv } from '../../src/analysis/csv';
-import { DASH, levelValue, logGap, monthsText, num, slug, suggestionHeadline, valueWords, withUnit } from '../../src/analysis/format';
+import { DASH, levelValue, logGap, monthsText, num, slug, suggestionHeadline, suggestionNote, suggestionState, valueWords, withUnit } from '../../src/analysis/format';
 import type { Series, StudyAnalysis } from '../../src/analysis/types';
-import { SUGGEST_CAUTION } from '../../shared/compute/suggest';
+import { SUGGEST_CAUTION, suggestShelfLife, type SuggestCondition } from '../../shared/compute/suggest';
 
 // The server's shape must keep fitting the client's copy (checked by vue-tsc; no runtime effect).
 export function serverShapeFitsClient(x: ServerStudyAnalysis): StudyAnalysis {
@@ -171,8 +171,8 @@ describe('number guards (never NaN, Infinity or undefined on screen)', () => {
     expect(monthsText(1)).toBe('1 month');
     expect(monthsText(3.684)).toBe('3.7 months');
     expect(monthsText(Infinity)).toBe(DASH);
-    expect(suggestionHeadline({ months: null })).toBe('None yet');
-    expect(suggestionHeadline({ months: 11 })).toBe('11 months');
+    expect(suggestionHeadline({ months: null, governingReason: null, reasons: [] })).toBe('Not enough data yet');
+    expect(suggestionHeadline({ months: 11, governingReason: null, reasons: [] })).toBe('11 months');
     expect(slug('45 °C / 75 % RH')).toBe('45-c-75-rh');
   });
 
@@ -183,6 +183,62 @@ describe('number guards (never NaN, Infinity or undefined on screen)', () => {
     expect(levelValue('pass_fail', false)).toBe(1);
     expect(valueWords({ kind: 'graded', unit: null, decimals: 0, scale: [{ grade: 3, label: 'Visible layer' }] }, 3)).toBe('3 Visible layer');
     expect(valueWords({ kind: 'compared', unit: null, decimals: 0, scale: null }, 'slight')).toBe('slight');
+  });
+});
+
+describe('the suggested shelf life headline', () => {
+  // Invented data, judged by the shared engine (shared/compute/suggest.ts) as the analysis page does.
+  const oven = (passedWeek1: boolean, failedAt0 = false): SuggestCondition => ({
+    name: '40 °C / 75 % RH',
+    kind: 'constant',
+    role: 'accelerated',
+    setpointC: 40,
+    attributes: [{ name: 'Odor', kind: 'compared', observations: [{ months: 0, passed: !failedAt0 }, { months: W(1), passed: passedWeek1 }] }],
+  });
+  const realTime = (passed: boolean[]): SuggestCondition => ({
+    name: '25 °C / 60 % RH',
+    kind: 'constant',
+    role: 'real_time',
+    setpointC: 25,
+    attributes: [{ name: 'Separation', kind: 'graded', observations: passed.map((p, i) => ({ months: i * 3, passed: p })) }],
+  });
+
+  it('one week passed at 40 °C projects under a month: too early to tell, not "0 months"', () => {
+    const r = suggestShelfLife({ q10: 2, conditions: [oven(true)] });
+    expect(r.months).toBe(0); // 0.23 months x 2^1.5 = 0.65
+    expect(suggestionState(r)).toBe('too_early');
+    expect(suggestionHeadline(r)).toBe('Too early to tell');
+    expect(suggestionNote(r)).toMatch(/record more checkpoints/);
+  });
+
+  it('a failure at the first real-time checkpoint is a real result under a month', () => {
+    const r = suggestShelfLife({ conditions: [realTime([false, false])] });
+    expect(r.months).toBe(0);
+    expect(r.basis).toBe('real_time');
+    expect(suggestionState(r)).toBe('failed_early');
+    expect(suggestionHeadline(r)).toBe('Under 1 month');
+    expect(suggestionNote(r)).toMatch(/Failed early/);
+  });
+
+  it('a failure at the first accelerated checkpoint is a real result too', () => {
+    const r = suggestShelfLife({ conditions: [oven(false)] });
+    expect(r.months).toBe(0);
+    expect(suggestionState(r)).toBe('failed_early');
+  });
+
+  it('day 0 alone gives no figure: not enough data yet; twelve weeks passed give the figure', () => {
+    const none = suggestShelfLife({ conditions: [realTime([true])] });
+    expect(none.months).toBeNull();
+    expect(suggestionState(none)).toBe('none');
+    expect(suggestionHeadline(none)).toBe('Not enough data yet');
+    expect(suggestionNote(none)).toBeNull();
+    const twelveWeeks = suggestShelfLife({
+      q10: 2,
+      conditions: [{ ...oven(true), attributes: [{ name: 'Odor', kind: 'compared', observations: [0, 4, 8, 12].map((w) => ({ months: W(w), passed: true })) }] }],
+    });
+    expect(suggestionState(twelveWeeks)).toBe('figure');
+    expect(suggestionHeadline(twelveWeeks)).toBe('7 months'); // 2.76 months x 2^1.5 = 7.8
+    expect(suggestionNote(twelveWeeks)).toBeNull();
   });
 });
 
@@ -258,6 +314,12 @@ describe('line charts of measured attributes', () => {
     // two-sided limit: a lower and an upper bound per variant
     expect(bounds).toHaveLength(4);
     expect(bounds.filter((b) => b.markLine?.data?.[0]?.xAxis === 27.3)).toHaveLength(2);
+    // the crossing's months are written above the plot at the line's top; the limit labels keep to the left
+    // end so the two never overlap (they did at the right end)
+    const crossingLabel = (bounds.find((b) => b.markLine)!.markLine as unknown as { label: { position: string } }).label;
+    expect(crossingLabel.position).toBe('end');
+    const limitsLabel = (s.find((x) => x.name === SERIES_NAMES.limits)!.markLine as unknown as { label: { position: string } }).label;
+    expect(limitsLabel.position).toBe('insideStartTop');
     expect(room.fits[0]).toMatch(/27\.30 months/);
     // other conditions have no fit, and keep a month range of their own (the fit reaches 27.3 x 1.08 months)
     expect(seriesOf(chart.panels[2].option).some((x) => x.name === SERIES_NAMES.fit)).toBe(false);

@@ -281,3 +281,20 @@ describe('diffVariants', () => {
     ]);
   });
 });
+
+describe('formula words on screen', () => {
+  it('writes a change of share in points of the formula, "% w/w"', async () => {
+    const { percentDeltaText } = await import('../../src/components/formulas/format');
+    expect(percentDeltaText(-1.3)).toBe('−1.30 % w/w');
+    expect(percentDeltaText(0.3)).toBe('+0.30 % w/w');
+  });
+
+  it('cautions preservatives and antioxidants each in their own words', async () => {
+    const { ingredientCaution, INGREDIENTS_CAUTION } = await import('../../src/components/formulas/format');
+    expect(ingredientCaution('preservative')).toMatch(/maximum concentrations for preservatives/);
+    expect(ingredientCaution('antioxidant')).toMatch(/antioxidants/);
+    expect(ingredientCaution('antioxidant')).not.toMatch(/preservative/);
+    expect(ingredientCaution('oil')).toBeNull();
+    expect(INGREDIENTS_CAUTION).toMatch(/preservatives and may limit some antioxidants/);
+  });
+});

@@ -104,6 +104,11 @@ describe('pass/fail as typed (the shared evaluate, same sentence as the server)'
 
   it('writes values in the attribute’s terms', () => {
     expect(valueText(viscosity, 12000)).toBe('12000 mPa·s');
+    // pH keeps its 2 decimals: 5.5 reads "5.50"; more digits typed are never rounded away.
+    expect(valueText(ph, 5.5)).toBe('5.50');
+    expect(valueText(ph, 5.523)).toBe('5.523');
+    expect(valueText(ph, 6)).toBe('6.00');
+    expect(valueText(attribute({ decimals: 1, unit: '°C' }), -2)).toBe('−2.0 °C');
     expect(valueText(separation, 1)).toBe('1 (Faint oil sheen)');
     expect(valueText(attribute({ kind: 'compared' }), 'no_change')).toBe('no change');
     expect(valueText(attribute({ kind: 'pass_fail' }), false)).toBe('Fail');

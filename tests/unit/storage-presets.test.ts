@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { conditionInput } from '../../shared/schemas/storage';
-import { HOT_CAUTION_C, PRESET_KEYS, STORAGE_PRESETS, conditionCautions, presetByKey } from '../../shared/storage-presets';
+import { HOT_CAUTION_C, PRESET_KEYS, SAFETY_RULES, STORAGE_PRESETS, cautionLines, conditionCautions, presetByKey } from '../../shared/storage-presets';
 import { demoOvenReadings, mulberry32 } from '../../server/demo/storage';
 import { summarizeChamberLog } from '../../shared/compute/storage';
 
@@ -40,19 +40,43 @@ describe('storage presets', () => {
 });
 
 describe('safety cautions', () => {
-  it('warn of hot surfaces from 40 °C, of cold burns and dry ice for freeze-thaw, and defer to local rules', () => {
+  it('warn of hot surfaces from 40 °C, of cold burns and dry ice at 0 °C and below and for freeze-thaw, of UV and centrifuges', () => {
     expect(HOT_CAUTION_C).toBe(40);
     expect(conditionCautions({ kind: 'constant', setpointC: 39 })).toEqual([]);
+    expect(conditionCautions({ kind: 'constant', setpointC: 4 })).toEqual([]);
     const hot = conditionCautions({ kind: 'constant', setpointC: 45 });
     expect(hot.map((c) => c.key)).toEqual(['hot']);
     expect(hot[0].text).toMatch(/heat-resistant gloves/);
+    expect(hot[0].text).toMatch(/cool/);
     const ft = conditionCautions({ kind: 'cycling', lowC: -10, highC: 25 });
     expect(ft.map((c) => c.key)).toEqual(['cold']);
     expect(ft[0].text).toMatch(/cold burns/);
     expect(ft[0].text).toMatch(/ventilation/);
-    for (const c of [...hot, ...ft]) expect(c.text).toMatch(/local regulations/);
+    expect(ft[0].text).toMatch(/never in a sealed container/);
+    expect(conditionCautions({ kind: 'constant', setpointC: 0 }).map((c) => c.key)).toEqual(['cold']);
+    expect(conditionCautions({ kind: 'cycling', lowC: -10, highC: 45 }).map((c) => c.key)).toEqual(['hot', 'cold']);
     expect(conditionCautions({ kind: 'light', lightSource: 'daylight' })).toEqual([]);
-    expect(conditionCautions({ kind: 'light', lightSource: 'uv_cabinet' }).map((c) => c.key)).toEqual(['uv']);
+    const uv = conditionCautions({ kind: 'light', lightSource: 'uv_cabinet' });
+    expect(uv.map((c) => c.key)).toEqual(['uv']);
+    expect(uv[0].text).toMatch(/eye protection/);
+    const spin = conditionCautions({ kind: 'mechanical' });
+    expect(spin.map((c) => c.key)).toEqual(['centrifuge']);
+    expect(spin[0].text).toMatch(/balance the rotor.*stopped/i);
+  });
+
+  it('as lines for several conditions: each caution once, then the local-rules line; nothing when none apply', () => {
+    expect(SAFETY_RULES).toMatch(/local regulations/);
+    const lines = cautionLines([
+      { kind: 'constant', setpointC: 4 },
+      { kind: 'constant', setpointC: 45 },
+      { kind: 'constant', setpointC: 50 },
+      { kind: 'mechanical' },
+    ]);
+    expect(lines).toHaveLength(3);
+    expect(lines[0]).toMatch(/heat-resistant gloves/);
+    expect(lines[1]).toMatch(/rotor/);
+    expect(lines[2]).toBe(SAFETY_RULES);
+    expect(cautionLines([{ kind: 'constant', setpointC: 25 }])).toEqual([]);
   });
 });
 

@@ -3,7 +3,7 @@
  * the state palette's contrast, and label-sheet layouts.
  */
 import { describe, expect, it } from 'vitest';
-import { criterionText, formatNumber } from '../../src/format/criterion';
+import { criterionText, formatDecimals, formatNumber } from '../../src/format/criterion';
 import { formatDate, formatInstant, longDate, relativeDay, windowText } from '../../src/format/dates';
 import { benchOrder, canMarkMissed, SHOWN_STATES, stateDetail } from '../../src/format/checkpoint';
 import { STATE_STYLES } from '../../src/components/study/states';
@@ -25,12 +25,27 @@ describe('criterionText', () => {
     expect(criterionText({ kind: 'worst_grade', grade: 0 })).toBe('grade 0 only');
     expect(criterionText({ kind: 'must_pass' })).toBe('must pass');
     expect(criterionText({ kind: 'none' })).toBe('recorded only, no criterion');
+    expect(criterionText(null)).toBe('No criterion');
+  });
+
+  it('is the one wording of the Attributes page, the plans, the Record screen and the PDF report (shared)', async () => {
+    const shared = await import('../../shared/criterion-text');
+    expect(criterionText).toBe(shared.criterionText);
   });
 
   it('writes numbers without float noise and with a true minus sign', () => {
     expect(formatNumber(0.1 + 0.2)).toBe('0.3');
     expect(formatNumber(-10)).toBe('−10');
     expect(criterionText({ kind: 'range', min: -10, max: 0 }, { unit: '°C' })).toBe('within −10–0 °C');
+  });
+
+  it('writes readings with at least their attribute decimals, never rounding away what was typed', () => {
+    expect(formatDecimals(5.5, 2)).toBe('5.50');
+    expect(formatDecimals(5.52, 2)).toBe('5.52');
+    expect(formatDecimals(5.525, 2)).toBe('5.525');
+    expect(formatDecimals(23810, 0)).toBe('23810');
+    expect(formatDecimals(-0.5, 2)).toBe('−0.50');
+    expect(formatDecimals(7, null)).toBe('7');
   });
 });
 

@@ -14,6 +14,11 @@ export function percentText(x: number): string {
   return pct.format(roundTo(x, 4));
 }
 
+/** A change of a line's share, in percentage points of the formula: "+0.30 % w/w", "−1.30 % w/w". */
+export function percentDeltaText(delta: number): string {
+  return `${delta > 0 ? '+' : delta < 0 ? '−' : ''}${percentText(Math.abs(delta))} % w/w`;
+}
+
 /** Bench grams as weighed: "1,069.5", "4.50". */
 export function benchGramsText(g: number): string {
   return g < BENCH_FINE_BELOW_GRAMS ? grouped(2).format(g) : grouped(1).format(g);
@@ -48,11 +53,20 @@ export const FUNCTION_LABELS: Record<IngredientFunction, string> = {
 };
 export const FUNCTION_OPTIONS = INGREDIENT_FUNCTIONS.map((f) => ({ value: f, label: FUNCTION_LABELS[f] }));
 
-/** Functions whose lines get the preservative caution. */
+/** Functions whose lines get a caution (ingredientCaution). */
 export const CAUTION_FUNCTIONS: readonly IngredientFunction[] = ['preservative', 'antioxidant'];
 
-export const PRESERVATIVE_CAUTION =
-  "Check the supplier's data and your safety assessor; local regulations set maximum concentrations for preservatives.";
+const CHECK = "Check the supplier's data and your safety assessor";
+
+/** The caution beside a preservative or antioxidant line, in that function's own words; null for the others. */
+export function ingredientCaution(fn: IngredientFunction): string | null {
+  if (fn === 'preservative') return `${CHECK}; local regulations set maximum concentrations for preservatives.`;
+  if (fn === 'antioxidant') return `${CHECK}; local regulations may limit the concentration of some antioxidants.`;
+  return null;
+}
+
+/** Both cautions at once, under the ingredient list. */
+export const INGREDIENTS_CAUTION = `${CHECK}; local regulations set maximum concentrations for preservatives and may limit some antioxidants.`;
 
 /** Parses what a person typed as a number ("1,5" reads as 1.5); NaN when it is not one. */
 export function parseTyped(text: string): number {

@@ -6,7 +6,7 @@
 import { COMPARED_LEVEL_LABELS, evaluate, physicalRangeError, type ComparedLevel, type Criterion, type Evaluation } from '@shared/compute/criteria';
 import type { StoredVerdict } from '@shared/domain';
 import type { Attribute } from '@shared/schemas/studies';
-import { formatNumber } from '@/format/criterion';
+import { formatDecimals, formatNumber } from '@/format/criterion';
 
 export type Value = number | string | boolean;
 
@@ -28,12 +28,15 @@ export const VERDICT_SHOWN: Readonly<Record<StoredVerdict, { word: string; icon:
   not_done: { word: 'Not done', icon: 'minus', tone: 'info' },
 };
 
-/** A value as a lab person reads it, with its unit. */
-export function valueText(a: Pick<Attribute, 'kind' | 'unit' | 'scale'>, value: Value | null | undefined): string {
+/** A value as a lab person reads it, with its unit; a measured number with at least its attribute's decimals ("5.50"). */
+export function valueText(a: Pick<Attribute, 'kind' | 'unit' | 'scale'> & { decimals?: number | null }, value: Value | null | undefined): string {
   if (value === null || value === undefined) return '—';
   switch (a.kind) {
-    case 'measured':
-      return typeof value === 'number' ? (a.unit ? `${formatNumber(value)} ${a.unit}` : formatNumber(value)) : String(value);
+    case 'measured': {
+      if (typeof value !== 'number') return String(value);
+      const n = formatDecimals(value, a.decimals);
+      return a.unit ? `${n} ${a.unit}` : n;
+    }
     case 'graded': {
       const step = a.scale?.find((s) => s.grade === value);
       return step ? `${value} (${step.label})` : String(value);

@@ -1,7 +1,6 @@
-/** Small formatting helpers for the study screens: lab dates, criteria in words, offsets. */
-import { COMPARED_LEVEL_LABELS, type Criterion, type CriterionKind } from '@shared/compute/criteria';
+/** Small formatting helpers for the study screens: lab dates, criterion kinds, offsets (criteria in words: src/format/criterion.ts). */
+import type { CriterionKind } from '@shared/compute/criteria';
 import { dayOfWeek, type Offset } from '@shared/compute/schedule';
-import type { AttributeScaleStep } from '@shared/domain';
 
 const WEEKDAYS = ['Sun', 'Mon', 'Tue', 'Wed', 'Thu', 'Fri', 'Sat'];
 const MONTHS = ['January', 'February', 'March', 'April', 'May', 'June', 'July', 'August', 'September', 'October', 'November', 'December'];
@@ -67,33 +66,3 @@ export const CRITERION_KIND_LABELS: Readonly<Record<CriterionKind, string>> = {
   none: 'No criterion (record only)',
 };
 
-function n(x: number): string {
-  return String(Math.round(x * 1e6) / 1e6);
-}
-
-/** A criterion in words, e.g. "±0.5 pH from day 0", "at worst 1 (faint oil sheen)". */
-export function criterionText(c: Criterion | null | undefined, unit?: string | null, scale?: AttributeScaleStep[] | null): string {
-  if (!c) return 'No criterion';
-  const u = unit ? ` ${unit}` : '';
-  switch (c.kind) {
-    case 'range':
-      if (c.min != null && c.max != null) return `${n(c.min)}–${n(c.max)}${u}`;
-      if (c.min != null) return `at least ${n(c.min)}${u}`;
-      if (c.max != null) return `at most ${n(c.max)}${u}`;
-      return 'range not set';
-    case 'change_abs':
-      return `within ±${n(c.max)}${u} of day 0`;
-    case 'change_pct':
-      return `within ±${n(c.max)} % of day 0`;
-    case 'worst_grade': {
-      const label = scale?.find((s) => s.grade === c.grade)?.label;
-      return `grade ${c.grade}${label ? ` (${label})` : ''} at worst`;
-    }
-    case 'worst_compared':
-      return `${COMPARED_LEVEL_LABELS[c.level]} at worst, versus control`;
-    case 'must_pass':
-      return 'must pass';
-    case 'none':
-      return 'recorded, not judged';
-  }
-}

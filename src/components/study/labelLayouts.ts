@@ -104,8 +104,8 @@ export function paginate<T>(labels: readonly T[], layout: LabelLayout, skip = 0)
   return labels.length ? sheets : [];
 }
 
-/** Lines of text under the code on each label (product, variant, condition, lot, start). */
-export const LABEL_TEXT_LINES = 5;
+/** Lines of text under the code on each label: product, variant (up to two lines), condition, lot, start. */
+export const LABEL_TEXT_LINES = 6;
 
 /** Height the text block needs, pt: the code line (1.1 line height + 0.3 em space) and the other lines at 1.22. */
 export function textHeightPt(l: LabelLayout): number {
