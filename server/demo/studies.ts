@@ -479,7 +479,7 @@ export async function seedStudies(
     signerName: 'Maya Lindqvist',
     signedAt: new Date(submittedAt.getTime() + 2 * 86_400_000),
     meaning: SIGNATURE_MEANINGS.released_with_conditions,
-    dataHash: await studyDataHash(tx, s4.studyId),
+    dataHash: await studyDataHash(tx, labId, s4.studyId),
   });
 
   // Generated photos of the 45 °C jars at day 0, week 4 and week 8.

@@ -91,7 +91,7 @@ export async function planImport(db: DbOrTx, labId: number, studyId: number, tim
   const existing = await db
     .select({ sampleId: observations.sampleId, checkpointId: observations.checkpointId, saId: observations.studyAttributeId })
     .from(observations)
-    .where(eq(observations.studyId, studyId));
+    .where(and(eq(observations.labId, labId), eq(observations.studyId, studyId)));
 
   const rows: ImportPreviewRow[] = [];
   const groups: ImportPlan['groups'] = new Map();

@@ -33,7 +33,7 @@ import {
   variants,
 } from '../db/schema';
 import { conflict, forbidden, HttpError, notFound } from '../http/errors';
-import { audit } from './audit';
+import { audit, auditMany } from './audit';
 import { checkpointView } from './studies';
 import { photosFor } from './photos';
 
@@ -147,6 +147,7 @@ async function baselines(db: DbOrTx, ctx: Context): Promise<Map<number, { value:
     .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
     .where(
       and(
+        eq(observations.labId, ctx.study.labId),
         eq(observations.studyId, ctx.study.id),
         eq(samples.batchId, ctx.sample.batchId),
         eq(checkpoints.offsetN, 0),
@@ -226,6 +227,7 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
       .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
       .where(
         and(
+          eq(observations.labId, ctx.study.labId),
           eq(observations.studyId, ctx.study.id),
           eq(samples.batchId, ctx.sample.batchId),
           eq(studyConditions.role, 'control'),
@@ -437,14 +439,17 @@ export async function recordObservations(
     });
     if (Object.keys(fields).length) throw unprocessable(fields);
     if (Object.keys(conflicts).length) throw conflict(Object.values(conflicts)[0], conflicts);
-    for (const { attr, ...row } of rows) {
-      const [{ id }] = await tx.insert(observations).values(row).$returningId();
-      await audit(tx, {
+    // One multi-row INSERT for the readings and one for their audit rows (ids in insert order).
+    if (!rows.length) throw unprocessable({ entries: 'Nothing to save' });
+    const ids = await tx.insert(observations).values(rows.map(({ attr: _attr, ...row }) => row)).$returningId();
+    await auditMany(
+      tx,
+      rows.map(({ attr, ...row }, i) => ({
         labId: who.labId,
         userId: who.id,
-        action: 'create',
+        action: 'create' as const,
         entity: 'observation',
-        entityId: id,
+        entityId: ids[i].id,
         studyId: ctx.study.id,
         newValue: {
           sample: ctx.sample.code,
@@ -455,8 +460,8 @@ export async function recordObservations(
           verdict: row.verdict,
           notDoneReason: row.notDoneReason ?? undefined,
         },
-      });
-    }
+      })),
+    );
     await settleCheckpoint(tx, checkpointId, who.id);
   });
 }

@@ -9,6 +9,7 @@ import { join } from 'node:path';
 import * as echarts from 'echarts';
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import { COMPARED_LEVEL_LABELS, type ComparedLevel } from '../../shared/compute/criteria';
+import { reasonMethodName } from '../../shared/compute/suggest';
 import { criterionText, formatDecimals } from '../../shared/criterion-text';
 import { CONDITION_ROLE_LABELS, DECISION_OUTCOME_LABELS, PRODUCT_TYPE_LABELS, STUDY_STATUS_LABELS, type ProductType } from '../../shared/domain';
 import type { Db } from '../db/client';
@@ -38,13 +39,6 @@ pdfmake.setFonts({
 pdfmake.setUrlAccessPolicy(() => false);
 pdfmake.setLocalAccessPolicy((p) => p.startsWith(INTER));
 
-const METHOD_WORDS: Record<string, string> = {
-  regression: 'regression (ICH Q1E)',
-  observed: 'last passing checkpoint',
-  q10: 'Q10 projection',
-  arrhenius: 'Arrhenius fit',
-  gate: 'gate',
-};
 
 /** The shipped Inter subset lacks some symbols: spell them so no empty boxes print. */
 function printable<T>(x: T): T {
@@ -273,7 +267,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       ...a.suggestions.flatMap((s) => [
         { text: `${variantName(s.variantId)}: ${s.result.months != null ? `${s.result.months} months` : 'no figure yet'} (${s.result.basis.replace('_', ' ')})`, bold: true, margin: [0, 6, 0, 2], headlineLevel: 2 },
         s.result.reasons.length
-          ? table(['auto', 'auto', 'auto', 'auto', '*'], ['Attribute', 'Condition', 'Method', 'Months', 'Rule and data'], s.result.reasons.map((r) => [r.attribute, r.condition, METHOD_WORDS[r.method] ?? r.method, r.figureMonths != null ? r.figureMonths.toFixed(1) : '—', `${r.rule} ${r.message} (${r.dataPoints} results)`]))
+          ? table(['auto', 'auto', 'auto', 'auto', '*'], ['Attribute', 'Condition', 'Method', 'Months', 'Rule and data'], s.result.reasons.map((r) => [r.attribute, r.condition, reasonMethodName(r), r.figureMonths != null ? r.figureMonths.toFixed(1) : '—', `${r.rule} ${r.message} (${r.dataPoints} results)`]))
           : { text: 'No reasons yet.', italics: true },
         ...(s.result.gates.length ? [{ text: `Gates: ${s.result.gates.map((g) => g.message).join(' ')}`, margin: [0, 3, 0, 0] }] : []),
         { text: s.result.confidenceNote, style: 'muted', margin: [0, 3, 0, 0] },

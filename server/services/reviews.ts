@@ -48,7 +48,7 @@ import { cycleHoursOf, planOf, todayIn } from './studies';
 const bad = (fields: Record<string, string>) => new HttpError(400, 'validation', `Invalid input: check ${Object.keys(fields).join(', ')}`, fields);
 
 /** SHA-256 over the study's plan, checkpoints and every observation version (voided ones too), in a fixed order. */
-export async function studyDataHash(db: DbOrTx, studyId: number): Promise<string> {
+export async function studyDataHash(db: DbOrTx, labId: number, studyId: number): Promise<string> {
   const plan = await planOf(db, studyId);
   const cps = await db
     .select({ id: checkpoints.id, status: checkpoints.status, dueDate: checkpoints.dueDate, label: checkpoints.label })
@@ -72,7 +72,8 @@ export async function studyDataHash(db: DbOrTx, studyId: number): Promise<string
       x: observations.voided,
     })
     .from(observations)
-    .where(eq(observations.studyId, studyId))
+    // lab_id first: the (lab_id, study_id) index serves it; study_id alone would scan every lab's readings.
+    .where(and(eq(observations.labId, labId), eq(observations.studyId, studyId)))
     .orderBy(asc(observations.id));
   return createHash('sha256').update(JSON.stringify({ plan, checkpoints: cps, observations: obs })).digest('hex');
 }
@@ -271,7 +272,7 @@ export async function decide(
       }
     }
 
-    const dataHash = await studyDataHash(tx, studyId);
+    const dataHash = await studyDataHash(tx, who.labId, studyId);
     const signedAt = new Date();
     const [{ id }] = await tx
       .insert(decisions)
@@ -339,7 +340,7 @@ export async function reviewOf(db: Db, labId: number, studyId: number) {
       .orderBy(desc(submissions.id)),
     studyVariants(db, studyId),
     currentDecisions(db, studyId),
-    studyDataHash(db, studyId),
+    studyDataHash(db, labId, studyId),
   ]);
   const supersededBy = new Map(all.filter((d) => d.supersedesId).map((d) => [d.supersedesId!, d.id]));
   const view = (d: (typeof all)[number]): DecisionView => {

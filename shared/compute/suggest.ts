@@ -100,6 +100,19 @@ export interface SuggestInput {
 
 export type ReasonMethod = 'regression' | 'observed' | 'q10' | 'arrhenius' | 'gate';
 
+const METHOD_NAMES: Readonly<Record<ReasonMethod, string>> = {
+  regression: 'Regression (ICH Q1E)',
+  observed: 'Last passing checkpoint (real time)',
+  q10: 'Q10 projection',
+  arrhenius: 'Arrhenius fit',
+  gate: 'Stress test gate',
+};
+
+/** How a reason was reached, in words, the same on every page and in the PDF. */
+export function reasonMethodName(r: { method: ReasonMethod; gateOf?: 'control' | 'stress' }): string {
+  return r.method === 'gate' && r.gateOf === 'control' ? 'Control (reference)' : (METHOD_NAMES[r.method] ?? r.method);
+}
+
 export interface SuggestReason {
   attribute: string;
   condition: string;
@@ -357,7 +370,7 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
   if (basis === 'none') {
     confidenceNote = 'No figure yet: record more checkpoints (at least 3 results at 2 or more times at real time, or an accelerated condition).';
   } else if (basis === 'projection_only') {
-    confidenceNote = 'Projection only, from a rule of thumb: verify with real-time data.';
+    confidenceNote = 'From a rule of thumb, not a prediction: verify with real-time data.';
   } else {
     confidenceNote =
       gov && gov.method === 'q10'

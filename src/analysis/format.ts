@@ -142,13 +142,6 @@ export const VERDICT_WORDS: Readonly<Record<StoredVerdict, string>> = {
   not_done: 'Not done',
 };
 
-export const METHOD_LABELS: Readonly<Record<ReasonMethod, string>> = {
-  regression: 'Regression (ICH Q1E)',
-  observed: 'Observed at real time',
-  q10: 'Q10 projection',
-  arrhenius: 'Arrhenius fit',
-  gate: 'Stress test gate',
-};
 
 export const BASIS_LABELS: Readonly<Record<SuggestResult['basis'], string>> = {
   real_time: 'Real-time data',

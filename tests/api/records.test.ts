@@ -116,6 +116,13 @@ describe('recording a checkpoint', () => {
     expect(ok.body.sheet.siblings.filter((x: { complete: boolean }) => x.complete).map((x: { code: string }) => x.code).sort()).toEqual([s.code, s2.code].sort());
     const [audits] = await t.db.select({ n: sql<number>`count(*)` }).from(auditLog).where(eq(auditLog.entity, 'observation'));
     expect(Number(audits.n)).toBe(24); // one audit row per observation
+    // ... each naming its own observation and value (the save writes them in one multi-row INSERT each).
+    const rows = await t.db
+      .select({ id: observations.id, valueNum: observations.valueNum, entityId: auditLog.entityId, newValue: auditLog.newValue })
+      .from(observations)
+      .innerJoin(auditLog, sql`${auditLog.entity} = 'observation' AND ${auditLog.entityId} = CAST(${observations.id} AS CHAR)`);
+    expect(rows).toHaveLength(24);
+    for (const r of rows) if (r.valueNum != null) expect((r.newValue as { value: number }).value).toBe(r.valueNum);
   });
 
   it('a partial save leaves the checkpoint open; not-done needs a reason', async () => {

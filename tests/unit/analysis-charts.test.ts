@@ -108,7 +108,7 @@ function fixture(): StudyAnalysis {
   const suggestion = (months: number | null) => ({
     months,
     basis: months === null ? ('none' as const) : ('projection_only' as const),
-    confidenceNote: months === null ? 'No figure yet.' : 'Projection only, from a rule of thumb: verify with real-time data.',
+    confidenceNote: months === null ? 'No figure yet.' : 'From a rule of thumb, not a prediction: verify with real-time data.',
     governingReason: months === null ? null : 0,
     reasons: [],
     gates: [],

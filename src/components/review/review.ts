@@ -146,13 +146,6 @@ export interface ReviewAnalysis {
   suggestions: { variantId: number; result: SuggestResult }[];
 }
 
-export const METHOD_WORDS: Record<string, string> = {
-  regression: 'Regression (ICH Q1E)',
-  observed: 'Last passing checkpoint',
-  q10: 'Q10 projection',
-  arrhenius: 'Arrhenius fit',
-  gate: 'Stress test',
-};
 
 /** A figure of months with one decimal where it has one ('11.4 months'), or a dash. */
 export function figureText(x: number | null | undefined): string {
