@@ -115,7 +115,14 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
       'Content-Security-Policy': "default-src 'none'; sandbox",
       'Cache-Control': 'private, max-age=86400',
     });
-    res.sendFile(join(photoDir, thumb ? p.thumbName : p.storedName), { headers: { 'Content-Type': thumb ? 'image/webp' : p.mime } });
+    // `root` so that only the stored name is checked for dot segments: the data folder itself is '.data' by default.
+    res.sendFile(thumb ? p.thumbName : p.storedName, { root: photoDir, headers: { 'Content-Type': thumb ? 'image/webp' : p.mime } }, (err) => {
+      if (!err) return;
+      if (res.headersSent) return void res.end();
+      res.removeHeader('Content-Disposition');
+      res.removeHeader('Content-Security-Policy');
+      res.status(404).json({ error: { code: 'not_found', message: 'The photo file is missing from storage' } });
+    });
   };
   r.get('/photos/:id', requireMember, servePhoto(false));
   r.get('/photos/:id/thumb', requireMember, servePhoto(true));

@@ -27,8 +27,9 @@ let study: Study;
 const today = () => localDateInZone(new Date(), 'Europe/Berlin');
 
 beforeAll(async () => {
-  // A relative uploads folder on purpose: DATA_DIR defaults to the relative '.data', and photos must still be served.
-  t = await createTestApp({ uploadsDir: relative(process.cwd(), mkdtempSync(join(tmpdir(), 'kw-uploads-'))) });
+  // A relative uploads folder under a dot folder on purpose, like DATA_DIR's default '.data/uploads':
+  // photos must still be served (sendFile refuses relative paths and, by default, dot segments).
+  t = await createTestApp({ uploadsDir: join(relative(process.cwd(), mkdtempSync(join(tmpdir(), 'kw-uploads-'))), '.data', 'uploads') });
   [owner, formulator, technician, otherOwner] = await Promise.all([
     t.signIn(DEMO.owner),
     t.signIn(DEMO.formulator),
