@@ -178,7 +178,7 @@ export function conditionCautions(c: CautionSubject): Caution[] {
   if (hottest != null && hottest >= HOT_CAUTION_C) {
     out.push({
       key: 'hot',
-      text: 'Hot surfaces and samples: use heat-resistant gloves when opening the oven, and let containers cool before opening them.',
+      text: 'Hot surfaces and samples: use heat-resistant gloves when opening the oven or cabinet, and let containers cool before opening them.',
     });
   }
   if (c.kind === 'cycling' || (coldest != null && coldest <= 0)) {
