@@ -65,6 +65,7 @@ declare module 'vue' {
     IngredientDialog: typeof import('./components/formulas/IngredientDialog.vue')['default']
     KwChart: typeof import('./components/analysis/KwChart.vue')['default']
     KwIcon: typeof import('./components/KwIcon.vue')['default']
+    LineIcon: typeof import('./components/LineIcon.vue')['default']
     LogUpload: typeof import('./components/storage/LogUpload.vue')['default']
     MeasuredSection: typeof import('./components/analysis/MeasuredSection.vue')['default']
     MethodInputs: typeof import('./components/record/MethodInputs.vue')['default']
