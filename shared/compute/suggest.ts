@@ -125,6 +125,10 @@ export interface SuggestReason {
   message: string;
   /** Gate lines: whether the condition is a control or a stress test. */
   gateOf?: 'control' | 'stress';
+  /** Regression lines: the figure was cut to the extrapolation limit (too little real-time data), not the trend's. */
+  capped?: boolean;
+  /** Q10 lines: projected from the last checkpoint that passed, because a later one failed. */
+  afterFailure?: boolean;
 }
 
 export interface SuggestGate {
@@ -291,6 +295,7 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
         });
         const regRule = `ICH Q1E Appendix B: ${r.model === 'pooled' ? 'pooled line' : r.model === 'common_slope' ? 'common slope, batch intercepts' : 'batches alone'}, one-sided confidence bound of the mean meets the limit.`;
         let figure: number | null = null;
+        let capped = false;
         let rule = regRule;
         let message = r.message;
         const horizon = opts.maxMonths ?? 60;
@@ -299,13 +304,14 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
           const raw = r.status === 'crossed' ? (r.months as number) : horizon;
           if (cap.capMonths !== null && cap.capMonths < raw) {
             figure = cap.capMonths;
+            capped = true;
             rule = `${regRule} Capped: ${cap.rule}`;
             message = `${r.message} Capped at ${f2(cap.capMonths)} months with ${f2(X)} months of real-time data.`;
           } else {
             figure = raw;
           }
         }
-        reasons.push({ attribute: a.name, condition: c.name, method: 'regression', dataPoints: points.length, figureMonths: figure, rule, message });
+        reasons.push({ attribute: a.name, condition: c.name, method: 'regression', dataPoints: points.length, figureMonths: figure, rule, message, capped });
       }
       continue;
     }
@@ -348,6 +354,7 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
       figureMonths: proj.months,
       rule: q10Rule,
       message: `${lead} ${proj.message}`,
+      afterFailure: firstFail !== null,
     });
   }
 

@@ -163,13 +163,11 @@ export function suggestionState(r: Suggestion): SuggestionState {
   if (r.months >= 1) return 'figure';
   const gov = r.governingReason == null ? undefined : r.reasons[r.governingReason];
   if (!gov) return 'too_early';
-  // Read from the governing reason (shared/compute/suggest.ts): an observed line is a real-time
-  // failure; a Q10 line names the attributes that failed (else "all attributes" passed); a regression
-  // figure is the trend meeting its limit unless it was capped for lack of real-time data.
+  // From the governing reason (shared/compute/suggest.ts): an observed line is a real-time failure; a
+  // Q10 line projected after a failure is one too; a regression figure is the trend meeting its limit
+  // unless it was capped for lack of real-time data.
   const failed =
-    gov.method === 'observed' ||
-    (gov.method === 'q10' && gov.attribute !== 'all attributes') ||
-    (gov.method === 'regression' && !gov.rule.includes('Capped:'));
+    gov.method === 'observed' || (gov.method === 'q10' && gov.afterFailure === true) || (gov.method === 'regression' && !gov.capped);
   return failed ? 'failed_early' : 'too_early';
 }
 

@@ -136,6 +136,7 @@ describe('accelerated failure and gates that block', () => {
     expect(q.figureMonths).toBeCloseTo(weeksToMonths(16), 10); // 3.68 months
     expect(r.months).toBe(3);
     expect(q.message).toMatch(/last passing checkpoint/);
+    expect(q.afterFailure).toBe(true);
   });
 
   it('a centrifuge failure blocks release', () => {
@@ -213,6 +214,7 @@ describe('regression branch: LeBlond 2011 potency at real time (data span 0-24 m
     // 25.9958: LeBlond et al. 2011 as recomputed in the reference CSV header (paper: 26 months).
     expect(Math.abs((reg.figureMonths as number) - 25.9958)).toBeLessThan(0.00005);
     expect(reg.dataPoints).toBe(31);
+    expect(reg.capped).toBe(false); // under the cap: the trend's own figure
     expect(reg.rule).toMatch(/pooled line/);
     expect(r.months).toBe(25);
     expect(r.basis).toBe('real_time');
@@ -233,6 +235,7 @@ describe('regression branch: LeBlond 2011 potency at real time (data span 0-24 m
     const reg = r.reasons.find((x) => x.method === 'regression')!;
     expect(reg.figureMonths).toBe(15);
     expect(reg.rule).toMatch(/Capped: ICH Q1E: significant change at accelerated/);
+    expect(reg.capped).toBe(true);
     expect(r.months).toBe(15);
   });
 
