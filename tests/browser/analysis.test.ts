@@ -12,8 +12,8 @@ import type { Page } from 'playwright-core';
 import { addDays } from '../../shared/compute/schedule';
 import type { BenchResponse, StudyDetail } from '../../shared/schemas/studies';
 import { DEMO, type Client } from '../helpers/app';
-import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
-import { makeCatalogue, type Catalogue } from '../helpers/fixtures';
+import { SHOTS, VIEWPORTS, signInSettled, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { makeCatalogue, uploadHourlyLogs, type Catalogue } from '../helpers/fixtures';
 
 let rig: BrowserRig;
 let formulator: Client;
@@ -24,17 +24,6 @@ let today: string;
 const W = (n: number) => ({ unit: 'week' as const, n });
 const C = (n: number) => ({ unit: 'cycle' as const, n });
 const DAY0 = { unit: 'day' as const, n: 0 };
-
-/** Hourly readings from `from` (a date) for `hours` hours around `setC`, as a logger CSV. */
-function hourlyLog(from: string, hours: number, setC: number): string {
-  const t0 = Date.parse(`${from}T00:00:00Z`);
-  const lines = ['Timestamp,Temp (°C)'];
-  for (let i = 0; i < hours; i++) {
-    const v = setC + 0.6 * Math.sin(i / 7) + (i % 500 === 250 ? 2.5 : 0);
-    lines.push(`${new Date(t0 + i * 3_600_000).toISOString().replace('.000Z', 'Z')},${v.toFixed(2)}`);
-  }
-  return `${lines.join('\n')}\n`;
-}
 
 beforeAll(async () => {
   rig = await startBrowserRig();
@@ -108,24 +97,12 @@ beforeAll(async () => {
   }
 
   // Chamber logs for the oven and the 25 °C cabinet over the study so far: MKT beside each.
-  for (const [id, setC] of [
+  await uploadHourlyLogs(formulator, [
     [cat.conditions.oven45, 45],
     [cat.conditions.room, 25],
-  ] as const) {
-    const res = await formulator.agent
-      .post(`/api/storage-conditions/${id}/logs`)
-      .set('X-Keepwell-Request', '1')
-      .attach('file', Buffer.from(hourlyLog(start, 90 * 24, setC), 'utf8'), `logger-${setC}.csv`);
-    expect(res.status, JSON.stringify(res.body)).toBe(201);
-  }
+  ], start, 90 * 24, { every: 500, c: 2.5 });
 }, 240_000);
 afterAll(async () => rig?.close());
-
-/** Signs in and lets the Bench finish loading, so leaving it aborts no request. */
-async function signIn(page: Page, email: string) {
-  await signInAs(page, rig.baseUrl, email);
-  await page.waitForLoadState('networkidle');
-}
 
 async function chartsSettled(page: Page) {
   await page.waitForSelector('.kw-chart canvas');
@@ -154,7 +131,7 @@ describe('Analysis page', () => {
   it('a formulator sees the charts, the suggested shelf life with its reasons, changes Q10 and gets the CSV', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop, acceptDownloads: true });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     const opened = Date.now();
     await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
     await page.waitForSelector('[data-testid="analysis-title"]');
@@ -250,7 +227,7 @@ describe('Analysis page', () => {
   it('keeps a 10 000-point chart responsive: sampled, no symbols, no animation', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     const real = (await formulator.get(`/api/studies/${study.id}/analysis`)).body.analysis;
     const ph = real.attributes.find((x: { code: string }) => x.code === 'ph').id;
     const roomId = study.conditions.find((c) => c.role === 'real_time')!.id;
@@ -301,7 +278,7 @@ describe('Analysis page', () => {
 
   it('is not offered to technicians', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
-    await signIn(page, DEMO.technician);
+    await signInSettled(page, rig.baseUrl, DEMO.technician);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
     await page.waitForURL(/\/not-allowed/);
     // The page says which roles may open it (the route's minRole), not always "the owner".
@@ -314,7 +291,7 @@ describe('Compare page', () => {
   it('shows every attribute at every condition, the first failures and each shelf life for two variants', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/compare`);
     const matrix = page.getByTestId('compare-matrix');
     await matrix.waitFor();

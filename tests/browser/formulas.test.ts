@@ -15,7 +15,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDays } from '../../shared/compute/schedule';
 import { todayIn } from '../../shared/schemas/formulas';
 import { DEMO, type Client } from '../helpers/app';
-import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { SHOTS, VIEWPORTS, signInSettled, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
 
 let rig: BrowserRig;
 let formulator: Client;
@@ -55,12 +55,6 @@ async function choose(page: Page, select: ReturnType<Page['locator']>, option: s
   await expect.poll(() => page.locator('.el-select__popper:visible').count()).toBe(0);
 }
 
-/** Signs in and lets the Bench finish loading, so leaving it aborts no request. */
-async function signIn(page: Page) {
-  await signInAs(page, rig.baseUrl, DEMO.formulator);
-  await page.waitForLoadState('networkidle');
-}
-
 /** Saves the variant on the page: waits for the server's answer, then for the page to have nothing left to save. */
 async function saveVariant(page: Page) {
   const answer = page.waitForResponse((r) => /\/api\/variants\/\d+$/.test(r.url()) && r.request().method() === 'PUT');
@@ -75,7 +69,7 @@ describe('formulas', () => {
   it('a formulator creates a product, variant A totalling 100 %, variant B derived from A and changed, and a batch of B', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-formulas').click();
     await page.waitForURL(/\/formulas$/);
 
@@ -268,7 +262,7 @@ describe('storage', () => {
   it('a formulator adds a 45 °C oven from its preset, uploads its chamber log and reads the summary', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-storage').click();
     await page.waitForURL(/\/storage$/);
 

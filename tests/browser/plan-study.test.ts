@@ -8,7 +8,7 @@ import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 import { DEMO, type Client } from '../helpers/app';
-import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { SHOTS, VIEWPORTS, signInSettled, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
 
 let rig: BrowserRig;
 let formulator: Client;
@@ -110,12 +110,6 @@ function input(page: Page, testId: string) {
   return page.locator(`input[data-testid="${testId}"], [data-testid="${testId}"] input`).first();
 }
 
-/** Signs in and lets the Bench finish loading, so leaving it aborts no request. */
-async function signIn(page: Page, email: string) {
-  await signInAs(page, rig.baseUrl, email);
-  await page.waitForLoadState('networkidle');
-}
-
 async function choose(page: Page, selectTestId: string, option: string) {
   await page.getByTestId(selectTestId).click();
   await page.getByRole('option', { name: option, exact: true }).click();
@@ -130,7 +124,7 @@ describe('planning a study', () => {
   it('a formulator plans a study from the 12-week accelerated template and saves it as a draft', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-studies').click();
     await page.waitForURL(/\/studies$/);
     await page.getByTestId('plan-study').click();
@@ -218,7 +212,7 @@ describe('planning a study', () => {
   it('on a tablet the formulator reopens the draft, checks the preview and starts the study', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-studies').click();
     await page.getByTestId(`edit-plan-${studyId}`).click();
     await page.waitForURL(new RegExp(`/studies/${studyId}/edit$`));
@@ -251,7 +245,7 @@ describe('planning a study', () => {
   it('the studies list shows the running study with its next checkpoint', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-studies').click();
     const row = page.getByTestId('studies-table').locator('.el-table__row').filter({ hasText: title });
     await row.waitFor();
@@ -269,7 +263,7 @@ describe('planning a study', () => {
   it('a technician sees the new study on the Bench, and cannot plan', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const problems = watchPage(page);
-    await signIn(page, DEMO.technician);
+    await signInSettled(page, rig.baseUrl, DEMO.technician);
     // Day 0 is due today, so the study's first checkpoints are on the Bench.
     await expect.poll(() => page.getByText(title).count(), { timeout: 15_000 }).toBeGreaterThan(0);
     await page.screenshot({ path: join(SHOTS, 'bench-after-plan-tablet.png') });
@@ -292,7 +286,7 @@ describe('problems the server finds', () => {
     );
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-studies').click();
     await page.getByTestId('plan-study').click();
     await choose(page, 'plan-product', product.name);
@@ -317,7 +311,7 @@ describe('the attribute library', () => {
   it('marks the starter set; a formulator adds a graded attribute with errors beside the fields, then deactivates it', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.getByTestId('nav-studies').click();
     await page.getByRole('button', { name: 'Attribute library' }).click();
     await page.waitForURL(/\/attributes$/);
@@ -364,7 +358,7 @@ describe('the attribute library', () => {
   it('a technician reads the library but cannot change it', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const problems = watchPage(page);
-    await signIn(page, DEMO.technician);
+    await signInSettled(page, rig.baseUrl, DEMO.technician);
     await page.getByTestId('nav-studies').click();
     await page.getByRole('button', { name: 'Attribute library' }).click();
     await page.getByTestId('attributes-table').locator('.el-table__row').first().waitFor();

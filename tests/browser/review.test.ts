@@ -20,8 +20,8 @@ import { seedFormulas } from '../../server/demo/formulas';
 import { addDays } from '../../shared/compute/schedule';
 import type { BenchResponse, StudyDetail } from '../../shared/schemas/studies';
 import { DEMO, DEMO_PASSWORD, type Client } from '../helpers/app';
-import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
-import { makeCatalogue, planFor } from '../helpers/fixtures';
+import { SHOTS, VIEWPORTS, signInSettled, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { makeCatalogue, planFor, uploadHourlyLogs } from '../helpers/fixtures';
 
 let rig: BrowserRig;
 let formulator: Client, technician: Client, owner: Client;
@@ -31,17 +31,6 @@ let today: string;
 const W = (n: number) => ({ unit: 'week' as const, n });
 const C = (n: number) => ({ unit: 'cycle' as const, n });
 const DAY0 = { unit: 'day' as const, n: 0 };
-
-/** Hourly readings from `from` for `hours` hours around `setC`, with a few warm spikes, as a logger CSV. */
-function hourlyLog(from: string, hours: number, setC: number): string {
-  const t0 = Date.parse(`${from}T00:00:00Z`);
-  const lines = ['Timestamp,Temp (°C)'];
-  for (let i = 0; i < hours; i++) {
-    const v = setC + 0.6 * Math.sin(i / 7) + (i % 400 === 200 ? 2.8 : 0);
-    lines.push(`${new Date(t0 + i * 3_600_000).toISOString().replace('.000Z', 'Z')},${v.toFixed(2)}`);
-  }
-  return `${lines.join('\n')}\n`;
-}
 
 /** A jar seen from above: cream colour, and for a separated sample an oily band on top (invented image). */
 async function jarPhoto(tint: number, separated: boolean): Promise<Buffer> {
@@ -135,23 +124,12 @@ beforeAll(async () => {
       }
     }
   }
-  for (const [id, setC] of [
+  await uploadHourlyLogs(formulator, [
     [cat.conditions.oven45, 45],
     [cat.conditions.room, 25],
-  ] as const) {
-    const res = await formulator.agent
-      .post(`/api/storage-conditions/${id}/logs`)
-      .set('X-Keepwell-Request', '1')
-      .attach('file', Buffer.from(hourlyLog(start, 56 * 24, setC), 'utf8'), `logger-${setC}.csv`);
-    expect(res.status, JSON.stringify(res.body)).toBe(201);
-  }
+  ], start, 56 * 24);
 }, 240_000);
 afterAll(async () => rig?.close());
-
-async function signIn(page: Page, email: string) {
-  await signInAs(page, rig.baseUrl, email);
-  await page.waitForLoadState('networkidle');
-}
 
 /** An element screenshot with the app bar unpinned, so a tall element is not crossed by it. */
 async function shot(page: Page, el: ReturnType<Page['locator']>, file: string) {
@@ -170,7 +148,7 @@ describe('Submit for review', () => {
   it('the formulator submits the running study from its page; the page shows it in review', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
 
     // Studies, then the study, then its "Submit for review" tab.
     await page.getByTestId('nav-studies').click();
@@ -253,7 +231,7 @@ describe('Release review', () => {
   it('the owner signs a release for A, returns B for more testing, and the queue empties', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.owner);
+    await signInSettled(page, rig.baseUrl, DEMO.owner);
 
     // The queue: oldest first, with product, who submitted and how many variants are decided.
     await page.getByTestId('nav-reviews').click();
@@ -380,7 +358,7 @@ describe('Release review', () => {
   it('the PDF and the print-friendly report', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.owner);
+    await signInSettled(page, rig.baseUrl, DEMO.owner);
 
     // The PDF with the owner's cookies; its first two pages rendered for a look.
     const res = await page.request.get(`${rig.baseUrl}/api/studies/${study.id}/report.pdf`);
@@ -459,7 +437,7 @@ describe('Release review', () => {
     // Before it is submitted, the review page does not contradict itself: not submitted, not awaiting a decision.
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.owner);
+    await signInSettled(page, rig.baseUrl, DEMO.owner);
     await page.goto(`${rig.baseUrl}/reviews/${id}`);
     await page.getByTestId('variant-A').waitFor();
     expect(await page.getByTestId('variant-state-A').textContent()).toContain('Not submitted');
@@ -555,7 +533,7 @@ describe('Release review', () => {
   it('a technician reads the report without the analysis and the decisions, with a note where they were', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signIn(page, DEMO.technician);
+    await signInSettled(page, rig.baseUrl, DEMO.technician);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/report`);
     await page.getByTestId('report').waitFor();
     await page.getByTestId('analysis-omitted').waitFor();
@@ -574,7 +552,7 @@ describe('Release review', () => {
 
   it("another lab's study: no such study, and nothing to print or download", async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
-    await signIn(page, DEMO.otherOwner);
+    await signInSettled(page, rig.baseUrl, DEMO.otherOwner);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/report`);
     await page.getByText('No such study in your lab').waitFor();
     for (const id of ['report-print', 'report-pdf', 'report-csv']) expect(await page.getByTestId(id).count(), id).toBe(0);

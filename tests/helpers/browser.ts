@@ -76,3 +76,9 @@ export async function signInAs(page: Page, baseUrl: string, email: string) {
   await page.getByTestId('sign-in').click();
   await page.waitForURL(/\/bench$/);
 }
+
+/** Signs in and lets the Bench finish loading, so navigating away at once aborts no request (which watchPage would report). */
+export async function signInSettled(page: Page, baseUrl: string, email: string) {
+  await signInAs(page, baseUrl, email);
+  await page.waitForLoadState('networkidle');
+}

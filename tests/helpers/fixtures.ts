@@ -5,6 +5,7 @@
  */
 import { eq } from 'drizzle-orm';
 import type { Db } from '../../server/db/client';
+import type { Client } from './app';
 import { attributes, batches, formulaLines, ingredients, products, storageConditions, variants } from '../../server/db/schema';
 
 export interface Catalogue {
@@ -76,4 +77,35 @@ export function planFor(c: Catalogue, startDate = '2026-11-02') {
     containerDescription: '50 mL PET jar',
     fillGrams: 45,
   };
+}
+
+/**
+ * An invented hourly logger CSV from `from` (UTC midnight) for `hours` hours around `setC`: a slow
+ * ±0.6 °C wave and, every `spikeEvery` hours (at half that offset), one warm reading `spikeC` above.
+ */
+export function hourlyLog(from: string, hours: number, setC: number, spikeEvery = 400, spikeC = 2.8): string {
+  const t0 = Date.parse(`${from}T00:00:00Z`);
+  const lines = ['Timestamp,Temp (°C)'];
+  for (let i = 0; i < hours; i++) {
+    const v = setC + 0.6 * Math.sin(i / 7) + (i % spikeEvery === spikeEvery / 2 ? spikeC : 0);
+    lines.push(`${new Date(t0 + i * 3_600_000).toISOString().replace('.000Z', 'Z')},${v.toFixed(2)}`);
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+/** Uploads one hourly log (see hourlyLog) per [condition id, setpoint] through the API, as the formulator would. */
+export async function uploadHourlyLogs(
+  client: Pick<Client, 'agent'>,
+  conditions: readonly (readonly [number, number])[],
+  from: string,
+  hours: number,
+  spike?: { every: number; c: number },
+): Promise<void> {
+  for (const [id, setC] of conditions) {
+    const res = await client.agent
+      .post(`/api/storage-conditions/${id}/logs`)
+      .set('X-Keepwell-Request', '1')
+      .attach('file', Buffer.from(hourlyLog(from, hours, setC, spike?.every, spike?.c), 'utf8'), `logger-${setC}.csv`);
+    if (res.status !== 201) throw new Error(`log upload answered ${res.status}: ${JSON.stringify(res.body)}`);
+  }
 }
