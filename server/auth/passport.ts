@@ -1,14 +1,13 @@
 import bcrypt from 'bcryptjs';
-import { eq, sql } from 'drizzle-orm';
+import { eq } from 'drizzle-orm';
 import { Passport } from 'passport';
 import { Strategy as LocalStrategy } from 'passport-local';
 import type { Db } from '../db/client';
 import { users } from '../db/schema';
 import type { Logger } from '../log';
-import { audit } from '../services/audit';
+import { countWrongPassword, LOCKOUT } from './lockout';
 import { loadMember } from './session-user';
 
-export const LOCKOUT = { maxFailures: 5, minutes: 15 };
 
 /** A bcrypt hash of a random string: compared when the e-mail is unknown so timing does not tell. */
 const DUMMY_HASH = bcrypt.hashSync('keepwell-no-such-user', 10);
@@ -39,28 +38,7 @@ export function createPassport(db: Db, log: Logger) {
         const ok = await bcrypt.compare(password, row?.passwordHash ?? DUMMY_HASH);
         if (!row || !ok || !row.active) {
           if (row) {
-            const failures = row.failedSignIns + 1;
-            const lock = failures >= LOCKOUT.maxFailures;
-            await db.transaction(async (tx) => {
-              await tx
-                .update(users)
-                .set({
-                  failedSignIns: lock ? 0 : sql`${users.failedSignIns} + 1`,
-                  lockedUntil: lock ? new Date(now.getTime() + LOCKOUT.minutes * 60_000) : row.lockedUntil,
-                })
-                .where(eq(users.id, row.id));
-              if (lock) {
-                await audit(tx, {
-                  labId: row.labId,
-                  userId: row.id,
-                  action: 'lockout',
-                  entity: 'user',
-                  entityId: row.id,
-                  newValue: { minutes: LOCKOUT.minutes, ip: req.ip },
-                  reason: `${LOCKOUT.maxFailures} failed sign-ins`,
-                });
-              }
-            });
+            const lock = await countWrongPassword(db, row, now, { lockAudit: { reason: `${LOCKOUT.maxFailures} failed sign-ins`, ip: req.ip } });
             if (lock) log.warn(`account ${row.id} locked for ${LOCKOUT.minutes} min after ${LOCKOUT.maxFailures} failed sign-ins (ip ${req.ip})`);
           }
           return done(null, false, { status: 401, message: 'E-mail or password is wrong' } satisfies SignInFailure as never);

@@ -26,7 +26,7 @@ import {
 } from '../../shared/schemas/account';
 import { endSessionsOf } from '../auth/end-sessions';
 import { requireMember, requireRole } from '../auth/guards';
-import { LOCKOUT } from '../auth/passport';
+import { countWrongPassword, LOCKOUT } from '../auth/lockout';
 import { passwordProblem } from '../auth/password-policy';
 import { member } from '../auth/session-user';
 import type { Config } from '../config';
@@ -427,7 +427,7 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
 
   /**
    * The current password is checked like a sign-in: wrong answers count towards the
-   * same lockout (LOCKOUT in auth/passport.ts), and a locked account cannot change it.
+   * same lockout (auth/lockout.ts), and a locked account cannot change it.
    * The new password follows the reset rules. This session stays; every other session
    * of the member ends, and open reset links stop working.
    */
@@ -446,24 +446,8 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
       });
     }
     if (!(await bcrypt.compare(input.currentPassword, u.passwordHash))) {
-      const failures = u.failedSignIns + 1;
-      const lock = failures >= LOCKOUT.maxFailures;
-      await db.transaction(async (tx) => {
-        await tx
-          .update(users)
-          .set({ failedSignIns: lock ? 0 : sql`${users.failedSignIns} + 1`, lockedUntil: lock ? new Date(t.getTime() + LOCKOUT.minutes * 60_000) : u.lockedUntil })
-          .where(eq(users.id, me.id));
-        if (lock) {
-          await audit(tx, {
-            labId: me.labId,
-            userId: me.id,
-            action: 'lockout',
-            entity: 'user',
-            entityId: me.id,
-            newValue: { minutes: LOCKOUT.minutes, ip: req.ip },
-            reason: `${LOCKOUT.maxFailures} wrong passwords (sign-in, signing or changing the password)`,
-          });
-        }
+      const lock = await countWrongPassword(db, u, t, {
+        lockAudit: { reason: `${LOCKOUT.maxFailures} wrong passwords (sign-in, signing or changing the password)`, ip: req.ip },
       });
       log.warn(`password change refused for member ${me.id}: wrong current password${lock ? ' (locked)' : ''} (ip ${req.ip})`);
       throw new HttpError(403, 'forbidden', 'The current password is wrong: the password was not changed', { currentPassword: 'Wrong password' });

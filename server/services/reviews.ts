@@ -21,7 +21,7 @@ import {
   type SubmissionView,
   type SubmitInput,
 } from '../../shared/schemas/reviews';
-import { LOCKOUT } from '../auth/passport';
+import { countWrongPassword, LOCKOUT } from '../auth/lockout';
 import type { Db, DbOrTx } from '../db/client';
 import {
   amendments,
@@ -152,21 +152,16 @@ export async function verifySigner(db: Db, log: Logger, userId: number, labId: n
     if (u.failedSignIns) await db.update(users).set({ failedSignIns: 0 }).where(eq(users.id, userId));
     return { name: u.name };
   }
-  const failures = u.failedSignIns + 1;
-  const lock = failures >= LOCKOUT.maxFailures;
-  await db.transaction(async (tx) => {
-    await tx
-      .update(users)
-      .set({ failedSignIns: lock ? 0 : failures, lockedUntil: lock ? new Date(now.getTime() + LOCKOUT.minutes * 60_000) : u.lockedUntil })
-      .where(eq(users.id, userId));
-    await audit(tx, {
-      labId,
-      userId,
-      action: 'sign_failed',
-      entity: 'study',
-      entityId: studyId,
-      reason: lock ? `Wrong password; signing locked for ${LOCKOUT.minutes} min` : 'Wrong password at signing',
-    });
+  const lock = await countWrongPassword(db, { ...u, labId }, now, {
+    alsoInTx: (tx, locked) =>
+      audit(tx, {
+        labId,
+        userId,
+        action: 'sign_failed',
+        entity: 'study',
+        entityId: studyId,
+        reason: locked ? `Wrong password; signing locked for ${LOCKOUT.minutes} min` : 'Wrong password at signing',
+      }),
   });
   log.warn(`signature refused for user ${userId} on study ${studyId}: wrong password${lock ? ' (locked)' : ''}`);
   throw new HttpError(403, 'forbidden', 'The password is wrong: the decision was not signed', { password: 'Wrong password' });

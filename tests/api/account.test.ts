@@ -5,7 +5,7 @@
  */
 import { and, eq, sql } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { LOCKOUT } from '../../server/auth/passport';
+import { LOCKOUT } from '../../server/auth/lockout';
 import { auditLog, passwordResets, users } from '../../server/db/schema';
 import { createTestApp, DEMO, DEMO_PASSWORD, type TestApp } from '../helpers/app';
 
