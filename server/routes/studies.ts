@@ -30,6 +30,7 @@ import {
 import { conflict, idParam, notFound, parse } from '../http/errors';
 import { audit } from '../services/audit';
 import { analyzeStudy } from '../services/analysis';
+import { conditionForCautions } from '../services/storage-conditions';
 import { labs } from '../db/schema';
 import {
   amendStudy,
@@ -317,17 +318,7 @@ export function studyRoutes(db: Db): Router {
         product: products.name,
         variant: { code: variants.code, name: variants.name },
         batch: { id: batches.id, lotCode: batches.lotCode, madeOn: batches.madeOn, packaging: batches.packaging },
-        condition: {
-          id: storageConditions.id,
-          name: storageConditions.name,
-          location: storageConditions.location,
-          kind: storageConditions.kind,
-          // for its safety cautions
-          setpointC: storageConditions.setpointC,
-          lowC: storageConditions.lowC,
-          highC: storageConditions.highC,
-          lightSource: storageConditions.lightSource,
-        },
+        condition: conditionForCautions,
       })
       .from(samples)
       .innerJoin(studies, eq(studies.id, samples.studyId))

@@ -34,6 +34,7 @@ import {
 } from '../db/schema';
 import { conflict, forbidden, HttpError, notFound } from '../http/errors';
 import { audit, auditMany } from './audit';
+import { conditionForCautions } from './storage-conditions';
 import { checkpointView } from './studies';
 import { photosFor } from './photos';
 
@@ -250,17 +251,7 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
       .orderBy(asc(samples.labelOrder)),
     photosFor(db, labId, { sampleId: ctx.sample.id, checkpointId }),
     db
-      .select({
-        id: storageConditions.id,
-        name: storageConditions.name,
-        location: storageConditions.location,
-        kind: storageConditions.kind,
-        setpointC: storageConditions.setpointC,
-        lowC: storageConditions.lowC,
-        highC: storageConditions.highC,
-        lightSource: storageConditions.lightSource,
-        role: studyConditions.role,
-      })
+      .select({ ...conditionForCautions, role: studyConditions.role })
       .from(studyConditions)
       .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
       .where(eq(studyConditions.id, ctx.sample.studyConditionId)),

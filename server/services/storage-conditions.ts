@@ -1,7 +1,20 @@
-/** Storage conditions: validated input to table columns. */
+/** Storage conditions: validated input to table columns, and the columns other pages select. */
 import { roundTo } from '../../shared/compute/units';
 import { DEFAULT_RH_TOLERANCE } from '../../shared/compute/storage';
 import type { ConditionValues } from '../../shared/schemas/storage';
+import { storageConditions } from '../db/schema';
+
+/** A condition as the sample and Record pages show it: name, place, and what its safety cautions need. */
+export const conditionForCautions = {
+  id: storageConditions.id,
+  name: storageConditions.name,
+  location: storageConditions.location,
+  kind: storageConditions.kind,
+  setpointC: storageConditions.setpointC,
+  lowC: storageConditions.lowC,
+  highC: storageConditions.highC,
+  lightSource: storageConditions.lightSource,
+};
 
 const round2 = (x: number | null) => (x == null ? null : roundTo(x, 2));
 
