@@ -14,7 +14,7 @@ import {
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 // The repo's sibling folder shared/ holds the read-only reference data (also in CI).
-const refDir = path.resolve(here, '../../../shared/reference-data');
+const refDir = path.resolve(here, '../fixtures/reference');
 
 /** Parse a reference CSV: '#' lines are the header comment, then a header row. */
 function readCsv(name: string): { comment: string; rows: Record<string, string>[] } {

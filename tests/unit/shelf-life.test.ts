@@ -14,7 +14,7 @@ import {
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 // Reference data live in the repo's sibling folder shared/ (also in CI).
-const refDir = path.resolve(here, '../../../shared/reference-data');
+const refDir = path.resolve(here, '../fixtures/reference');
 
 function readLeBlond(): { comment: string; points: BatchPoint[] } {
   const lines = fs.readFileSync(path.join(refDir, 'leblond-2011-pooled-potency.csv'), 'utf8').split(/\r?\n/);

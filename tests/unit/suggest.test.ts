@@ -14,7 +14,7 @@ import {
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 // Reference data live in the repo's sibling folder shared/ (also in CI).
-const refDir = path.resolve(here, '../../../shared/reference-data');
+const refDir = path.resolve(here, '../fixtures/reference');
 
 /** LeBlond, Griffith & Aubuchon 2011, J Valid Technol 17(3): potency of 3 batches, limit 95.0. */
 function leblondObservations(): SuggestObservation[] {
