@@ -21,6 +21,7 @@
 import { randomBytes } from 'node:crypto';
 import { and, eq, sql } from 'drizzle-orm';
 import cron, { type ScheduledTask } from 'node-cron';
+import { pruneGuards } from '../server/auth/lockout';
 import { isValidTimeZone } from '../shared/compute/schedule';
 import type { Config } from '../server/config';
 import type { Db } from '../server/db/client';
@@ -248,6 +249,8 @@ export function startReminderJob(o: Omit<TickOptions, 'now'> & { schedule?: stri
     o.schedule ?? REMINDER_CRON,
     async () => {
       try {
+        // Housekeeping that any instance may do: forget idle wrong-password counts.
+        await pruneGuards(o.db, new Date());
         const r = await runOnce();
         if (r.sent || r.failed) o.log.info(`reminders: ${r.sent} sent, ${r.failed} failed, ${r.skipped} with nothing to say`);
       } catch (err) {

@@ -68,6 +68,8 @@ export function createApp(deps: AppDeps) {
         },
       },
       strictTransportSecurity: config.secureCookies,
+      // DENY agrees with frame-ancestors 'none' (helmet's default SAMEORIGIN would contradict it).
+      xFrameOptions: { action: 'deny' },
     }),
   );
 
@@ -115,6 +117,7 @@ export function createApp(deps: AppDeps) {
       cookieName: SESSION_COOKIE,
       ipLimit: deps.signInIpLimit ?? 30,
       ipWindowMs: deps.signInIpWindowMs ?? 15 * 60_000,
+      httpsOrigin: config.secureCookies && config.PUBLIC_URL ? new URL(config.PUBLIC_URL).origin : undefined,
     }),
   );
   api.use('/lab', labRoutes(db));

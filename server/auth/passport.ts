@@ -4,19 +4,17 @@ import { Passport } from 'passport';
 import { Strategy as LocalStrategy } from 'passport-local';
 import type { Db } from '../db/client';
 import { users } from '../db/schema';
+import type { HttpError } from '../http/errors';
 import type { Logger } from '../log';
-import { countWrongPassword, LOCKOUT } from './lockout';
+import { claimAttempt, LOCKOUT, lockedError, passwordAccepted } from './lockout';
+import { BCRYPT_ROUNDS } from './password-policy';
 import { loadMember } from './session-user';
 
-
 /** A bcrypt hash of a random string: compared when the e-mail is unknown so timing does not tell. */
-const DUMMY_HASH = bcrypt.hashSync('keepwell-no-such-user', 10);
+const DUMMY_HASH = bcrypt.hashSync('keepwell-no-such-user', BCRYPT_ROUNDS);
 
-export interface SignInFailure {
-  status: 401 | 429;
-  message: string;
-  retryAfterSeconds?: number;
-}
+/** Why a sign-in was refused: the same for a real address and an unknown one. */
+export type SignInFailure = HttpError;
 
 export function createPassport(db: Db, log: Logger) {
   const passport = new Passport();
@@ -24,26 +22,23 @@ export function createPassport(db: Db, log: Logger) {
   passport.use(
     new LocalStrategy({ usernameField: 'email', passwordField: 'password', passReqToCallback: true }, (req, email, password, done) => {
       (async () => {
-        const [row] = await db.select().from(users).where(eq(users.email, email)).limit(1);
         const now = new Date();
-        if (row?.lockedUntil && row.lockedUntil > now) {
-          const retryAfterSeconds = Math.ceil((row.lockedUntil.getTime() - now.getTime()) / 1000);
-          log.warn(`sign-in refused: account ${row.id} locked (ip ${req.ip})`);
-          return done(null, false, {
-            status: 429,
-            message: `Too many failed sign-ins for this account; try again in ${Math.ceil(retryAfterSeconds / 60)} min`,
-            retryAfterSeconds,
-          } satisfies SignInFailure as never);
+        // Claim the attempt first (atomic per address), then the slow check: parallel guesses cannot outrun the count.
+        const claim = await claimAttempt(db, email, now, { reason: `${LOCKOUT.maxFailures} wrong passwords in a row`, ip: req.ip });
+        if (!claim.ok) {
+          log.warn(`sign-in refused: address locked (ip ${req.ip})`);
+          return done(null, false, lockedError(claim.retryAfterSeconds) as never);
         }
+        if (claim.locksNow) log.warn(`an address is locked for ${LOCKOUT.minutes} min after ${LOCKOUT.maxFailures} wrong passwords (ip ${req.ip})`);
+        const [row] = await db
+          .select({ id: users.id, passwordHash: users.passwordHash, active: users.active })
+          .from(users)
+          .where(eq(users.email, email))
+          .limit(1);
         const ok = await bcrypt.compare(password, row?.passwordHash ?? DUMMY_HASH);
-        if (!row || !ok || !row.active) {
-          if (row) {
-            const lock = await countWrongPassword(db, row, now, { lockAudit: { reason: `${LOCKOUT.maxFailures} failed sign-ins`, ip: req.ip } });
-            if (lock) log.warn(`account ${row.id} locked for ${LOCKOUT.minutes} min after ${LOCKOUT.maxFailures} failed sign-ins (ip ${req.ip})`);
-          }
-          return done(null, false, { status: 401, message: 'E-mail or password is wrong' } satisfies SignInFailure as never);
-        }
-        await db.update(users).set({ failedSignIns: 0, lockedUntil: null, lastSignInAt: now }).where(eq(users.id, row.id));
+        if (!row || !ok || !row.active) return done(null, false);
+        await passwordAccepted(db, email, now);
+        await db.update(users).set({ lastSignInAt: now }).where(eq(users.id, row.id));
         const memberRow = await loadMember(db, row.id);
         return done(null, memberRow ?? false);
       })().catch(done);

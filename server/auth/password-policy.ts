@@ -7,6 +7,9 @@
 import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 
+/** bcrypt cost for every stored password, and for the stand-in hash compared when an address is unknown. */
+export const BCRYPT_ROUNDS = 10;
+
 const SHIPPED = fileURLToPath(new URL('./common-passwords.txt', import.meta.url));
 /** A widely used list (zxcvbn's, about 49,000 entries), used when the package is installed. */
 const LIST_PACKAGE = '@zxcvbn-ts/language-common';

@@ -12,9 +12,10 @@ import { DEMO_LABS, DEMO_PASSWORD } from './people';
 import { seedFormulas } from './formulas';
 import { seedStorage } from './storage';
 import { seedStudies } from './studies';
+import { BCRYPT_ROUNDS } from '../auth/password-policy';
 
 let cachedHash: string | undefined;
-const demoHash = () => (cachedHash ??= bcrypt.hashSync(DEMO_PASSWORD, 10));
+const demoHash = () => (cachedHash ??= bcrypt.hashSync(DEMO_PASSWORD, BCRYPT_ROUNDS));
 
 export async function databaseIsEmpty(db: Db): Promise<boolean> {
   const [row] = await db.select({ n: sql<number>`count(*)` }).from(labs);

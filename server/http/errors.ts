@@ -8,6 +8,7 @@ export type ErrorCode =
   | 'unauthenticated'
   | 'forbidden'
   | 'csrf'
+  | 'https_required'
   | 'not_found'
   | 'conflict'
   | 'too_large'
@@ -24,6 +25,8 @@ export class HttpError extends Error {
     public code: ErrorCode,
     message: string,
     public fields?: Record<string, string>,
+    /** Sent as Retry-After (seconds) with a 429 or 503. */
+    public retryAfterSeconds?: number,
   ) {
     super(message);
   }
@@ -86,6 +89,7 @@ export function errorHandler(log: (msg: string, err?: unknown) => void): ErrorRe
       e = new HttpError(500, 'internal', 'Something went wrong on our side; it has been logged');
     }
     if (res.headersSent) return;
+    if (e.retryAfterSeconds) res.set('Retry-After', String(e.retryAfterSeconds));
     res.status(e.status).json({ error: { code: e.code, message: e.message, ...(e.fields ? { fields: e.fields } : {}) } });
   };
 }

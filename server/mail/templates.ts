@@ -208,6 +208,32 @@ export function invitationMail(p: {
   });
 }
 
+/**
+ * An invitation to an address that already has an account (in another lab): the person is told, the
+ * inviting owner is not (the invitation looks sent either way, so addresses cannot be probed).
+ */
+export function invitationToExistingAccountMail(p: { labName: string; inviterName: string; ownLabName: string }): MailContent {
+  const subject = `${p.inviterName} tried to invite you to ${p.labName} on Keepwell`;
+  return renderMail({
+    labName: p.labName,
+    subject,
+    preheader: 'Your address already has a Keepwell account, so the invitation could not be used.',
+    title: `An invitation to ${p.labName}`,
+    blocks: [
+      {
+        kind: 'paragraph',
+        text: `${p.inviterName} invited this address to join ${p.labName} on Keepwell. This address already has a Keepwell account, at ${p.ownLabName}, and one address belongs to one lab, so there is no link to accept.`,
+      },
+      {
+        kind: 'paragraph',
+        text: `If you want to work with ${p.labName}, ask ${p.inviterName} to invite another address of yours. Your account at ${p.ownLabName} is unchanged.`,
+      },
+      { kind: 'note', text: 'If you did not expect this, ignore this e-mail: nothing has changed.' },
+    ],
+    footer: `You receive this e-mail because an owner of ${p.labName} entered your address in Keepwell.`,
+  });
+}
+
 export function passwordResetMail(p: { labName: string; name: string; url: string }): MailContent {
   const subject = `Reset your Keepwell password (${p.labName})`;
   return renderMail({

@@ -26,8 +26,8 @@ import {
 } from '../../shared/schemas/account';
 import { endSessionsOf } from '../auth/end-sessions';
 import { requireMember, requireRole } from '../auth/guards';
-import { countWrongPassword, LOCKOUT } from '../auth/lockout';
-import { passwordProblem } from '../auth/password-policy';
+import { claimAttempt, clearLockout, LOCKOUT, lockedError } from '../auth/lockout';
+import { BCRYPT_ROUNDS, passwordProblem } from '../auth/password-policy';
 import { member } from '../auth/session-user';
 import type { Config } from '../config';
 import type { Db } from '../db/client';
@@ -35,14 +35,13 @@ import { invitations, labs, mailOutbox, passwordResets, users } from '../db/sche
 import { HttpError, conflict, idParam, notFound, parse } from '../http/errors';
 import type { Logger } from '../log';
 import { appUrl, mailerFor, outboxAvailable, type Mailer } from '../mail/mailer';
-import { invitationMail, passwordResetMail } from '../mail/templates';
+import { invitationMail, invitationToExistingAccountMail, passwordResetMail } from '../mail/templates';
 import { audit } from '../services/audit';
 
 export const INVITATION_HOURS = 72;
 export const RESET_MINUTES = 60;
 /** Reset e-mails per account per hour; more requests get the same answer and no e-mail. */
 export const RESET_MAX_PER_HOUR = 3;
-export const BCRYPT_ROUNDS = 10;
 
 export interface AccountRouteDeps {
   db: Db;
@@ -157,16 +156,21 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
     const expiresAt = new Date(t.getTime() + INVITATION_HOURS * 3_600_000);
     const { token, hash } = newToken();
     const lab = await labOf(db, me.labId);
+    let accountElsewhere: { labId: number; labName: string } | null = null;
 
     const invitationId = await db.transaction(async (tx) => {
-      const [existing] = await tx.select({ labId: users.labId }).from(users).where(eq(users.email, input.email)).limit(1);
-      if (existing) {
-        const message =
-          existing.labId === me.labId
-            ? 'This person is already a member of your lab'
-            : 'This address already has a Keepwell account, so it cannot be invited';
+      const [existing] = await tx
+        .select({ labId: users.labId, labName: labs.name })
+        .from(users)
+        .innerJoin(labs, eq(labs.id, users.labId))
+        .where(eq(users.email, input.email))
+        .limit(1);
+      if (existing?.labId === me.labId) {
+        const message = 'This person is already a member of your lab';
         throw conflict(message, { email: message });
       }
+      // An account in another lab: answered like any invitation (so addresses cannot be probed); the person is told by e-mail instead.
+      accountElsewhere = existing ? { labId: existing.labId, labName: existing.labName } : null;
       // A new invitation replaces an earlier one still open for the same address.
       await tx
         .update(invitations)
@@ -187,16 +191,19 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
       return id;
     });
 
-    const mail = invitationMail({
-      labName: lab.name,
-      timeZone: lab.timeZone,
-      inviterName: me.name,
-      role: input.role,
-      url: appUrl(config, `/invitation/${token}`),
-      expiresAt,
-    });
+    const mail = accountElsewhere
+      ? invitationToExistingAccountMail({ labName: lab.name, inviterName: me.name, ownLabName: accountElsewhere.labName })
+      : invitationMail({
+          labName: lab.name,
+          timeZone: lab.timeZone,
+          inviterName: me.name,
+          role: input.role,
+          url: appUrl(config, `/invitation/${token}`),
+          expiresAt,
+        });
     try {
-      await mailer().send({ to: input.email, ...mail, labId: me.labId });
+      // Filed under the person's own lab: the inviting lab's Outbox must not show where the address belongs.
+      await mailer().send({ to: input.email, ...mail, labId: accountElsewhere?.labId ?? me.labId });
     } catch (err) {
       log.error(`invitation ${invitationId}: the e-mail could not be sent`, err);
       await db.update(invitations).set({ revokedAt: now() }).where(eq(invitations.id, invitationId));
@@ -405,7 +412,8 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
     await db.transaction(async (tx) => {
       const [row] = await tx.select({ usedAt: passwordResets.usedAt }).from(passwordResets).where(eq(passwordResets.id, first.id)).for('update');
       if (!row || row.usedAt) throw gone('This link has already been used. If you still cannot sign in, ask for a new link.');
-      await tx.update(users).set({ passwordHash, failedSignIns: 0, lockedUntil: null }).where(eq(users.id, first.userId));
+      await tx.update(users).set({ passwordHash }).where(eq(users.id, first.userId));
+      await clearLockout(tx, first.email);
       // This link and every other open link of the member stop working.
       await tx.update(passwordResets).set({ usedAt: t }).where(and(eq(passwordResets.userId, first.userId), isNull(passwordResets.usedAt)));
       await endSessionsOf(tx, first.userId);
@@ -438,23 +446,19 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
     // The rules for the new password first: a refused new password costs no attempt.
     await checkPassword(input.newPassword, u.email, 'newPassword');
     const t = now();
-    if (u.lockedUntil && u.lockedUntil > t) {
-      const minutes = Math.ceil((u.lockedUntil.getTime() - t.getTime()) / 60_000);
-      res.set('Retry-After', String(Math.ceil((u.lockedUntil.getTime() - t.getTime()) / 1000)));
-      throw new HttpError(429, 'rate_limited', `Too many wrong passwords for this account; try again in ${minutes} min`, {
-        currentPassword: `Locked for ${minutes} min after too many wrong passwords`,
-      });
-    }
+    const claim = await claimAttempt(db, u.email, t, {
+      reason: `${LOCKOUT.maxFailures} wrong passwords in a row (sign-in, signing or changing the password)`,
+      ip: req.ip,
+    });
+    if (!claim.ok) throw lockedError(claim.retryAfterSeconds, 'currentPassword');
     if (!(await bcrypt.compare(input.currentPassword, u.passwordHash))) {
-      const lock = await countWrongPassword(db, u, t, {
-        lockAudit: { reason: `${LOCKOUT.maxFailures} wrong passwords (sign-in, signing or changing the password)`, ip: req.ip },
-      });
-      log.warn(`password change refused for member ${me.id}: wrong current password${lock ? ' (locked)' : ''} (ip ${req.ip})`);
+      log.warn(`password change refused for member ${me.id}: wrong current password${claim.locksNow ? ' (locked)' : ''} (ip ${req.ip})`);
       throw new HttpError(403, 'forbidden', 'The current password is wrong: the password was not changed', { currentPassword: 'Wrong password' });
     }
     const passwordHash = await bcrypt.hash(input.newPassword, BCRYPT_ROUNDS);
     const ended = await db.transaction(async (tx) => {
-      await tx.update(users).set({ passwordHash, failedSignIns: 0, lockedUntil: null }).where(eq(users.id, me.id));
+      await tx.update(users).set({ passwordHash }).where(eq(users.id, me.id));
+      await clearLockout(tx, u.email);
       // A reset link asked for earlier would otherwise still set a password.
       await tx.update(passwordResets).set({ usedAt: t }).where(and(eq(passwordResets.userId, me.id), isNull(passwordResets.usedAt)));
       const n = await endSessionsOf(tx, me.id, { except: req.sessionID });

@@ -13,6 +13,8 @@ export interface AuthRouteOptions {
   /** Sign-in attempts allowed per IP per window. */
   ipLimit: number;
   ipWindowMs: number;
+  /** With an https PUBLIC_URL: its origin. A sign-in over plain HTTP would get no cookie, so it is refused with a clear answer. */
+  httpsOrigin?: string;
 }
 
 export function authRoutes(o: AuthRouteOptions): Router {
@@ -36,13 +38,24 @@ export function authRoutes(o: AuthRouteOptions): Router {
     next();
   };
 
-  r.post('/sign-in', ipLimiter, validate, (req, res, next) => {
+  /** The session cookie is marked Secure: over plain HTTP the browser would drop it and the person would seem signed in, then get 401. */
+  const httpsOnly: RequestHandler = (req, _res, next) => {
+    if (!o.httpsOrigin || req.secure) return next();
+    next(
+      new HttpError(
+        403,
+        'https_required',
+        `Sign in at ${o.httpsOrigin}: this address is plain HTTP, and Keepwell only keeps you signed in over HTTPS. (Behind a proxy that ends TLS, set TRUST_PROXY.)`,
+      ),
+    );
+  };
+
+  r.post('/sign-in', httpsOnly, ipLimiter, validate, (req, res, next) => {
     o.passport.authenticate('local', (err: unknown, user: Express.User | false, info?: SignInFailure) => {
       if (err) return next(err);
       if (!user) {
-        const failure = info?.status ? info : { status: 401 as const, message: 'E-mail or password is wrong' };
-        if (failure.retryAfterSeconds) res.set('Retry-After', String(failure.retryAfterSeconds));
-        return next(new HttpError(failure.status, failure.status === 429 ? 'rate_limited' : 'unauthenticated', failure.message));
+        // The same answer for a real address and an unknown one: 401, or 429 once the address is locked.
+        return next(info instanceof HttpError ? info : new HttpError(401, 'unauthenticated', 'E-mail or password is wrong'));
       }
       // passport 0.7 regenerates the session here, so the id changes at sign-in.
       req.logIn(user, (loginErr) => {

@@ -2,6 +2,7 @@ import { and, asc, eq, sql } from 'drizzle-orm';
 import { Router } from 'express';
 import { memberRoleInput, type Member } from '../../shared/schemas/auth';
 import { endSessionsOf } from '../auth/end-sessions';
+import { clearLockout } from '../auth/lockout';
 import { requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db, DbOrTx } from '../db/client';
@@ -117,7 +118,8 @@ export function memberRoutes(db: Db): Router {
     const updated = await db.transaction(async (tx) => {
       const before = await findMember(tx, me.labId, id, true);
       if (before.active) return before;
-      await tx.update(users).set({ active: true, failedSignIns: 0, lockedUntil: null }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      await tx.update(users).set({ active: true }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      await clearLockout(tx, before.email);
       await audit(tx, { labId: me.labId, userId: me.id, action: 'update', entity: 'user', entityId: id, oldValue: { active: false }, newValue: { active: true } });
       return { ...before, active: true };
     });

@@ -21,7 +21,7 @@ import {
   type SubmissionView,
   type SubmitInput,
 } from '../../shared/schemas/reviews';
-import { countWrongPassword, LOCKOUT } from '../auth/lockout';
+import { claimAttempt, LOCKOUT, lockedError, passwordAccepted } from '../auth/lockout';
 import type { Db, DbOrTx } from '../db/client';
 import {
   amendments,
@@ -143,27 +143,23 @@ export async function submitStudy(db: Db, who: { id: number; labId: number }, st
 
 /** Re-authentication for a signature: the owner's password, with the same lockout as sign-in. */
 export async function verifySigner(db: Db, log: Logger, userId: number, labId: number, password: string, studyId: number): Promise<{ name: string }> {
-  const [u] = await db.select().from(users).where(eq(users.id, userId));
+  const [u] = await db.select({ name: users.name, email: users.email, passwordHash: users.passwordHash }).from(users).where(eq(users.id, userId));
   const now = new Date();
-  if (u.lockedUntil && u.lockedUntil > now) {
-    throw new HttpError(429, 'rate_limited', 'Too many wrong passwords: signing is locked for a few minutes', { password: 'Locked for a few minutes' });
-  }
+  const claim = await claimAttempt(db, u.email, now, { reason: `${LOCKOUT.maxFailures} wrong passwords in a row (sign-in, signing or changing the password)` });
+  if (!claim.ok) throw lockedError(claim.retryAfterSeconds, 'password');
   if (await bcrypt.compare(password, u.passwordHash)) {
-    if (u.failedSignIns) await db.update(users).set({ failedSignIns: 0 }).where(eq(users.id, userId));
+    await passwordAccepted(db, u.email, now);
     return { name: u.name };
   }
-  const lock = await countWrongPassword(db, { ...u, labId }, now, {
-    alsoInTx: (tx, locked) =>
-      audit(tx, {
-        labId,
-        userId,
-        action: 'sign_failed',
-        entity: 'study',
-        entityId: studyId,
-        reason: locked ? `Wrong password; signing locked for ${LOCKOUT.minutes} min` : 'Wrong password at signing',
-      }),
+  await audit(db, {
+    labId,
+    userId,
+    action: 'sign_failed',
+    entity: 'study',
+    entityId: studyId,
+    reason: claim.locksNow ? `Wrong password; signing locked for ${LOCKOUT.minutes} min` : 'Wrong password at signing',
   });
-  log.warn(`signature refused for user ${userId} on study ${studyId}: wrong password${lock ? ' (locked)' : ''}`);
+  log.warn(`signature refused for user ${userId} on study ${studyId}: wrong password${claim.locksNow ? ' (locked)' : ''}`);
   throw new HttpError(403, 'forbidden', 'The password is wrong: the decision was not signed', { password: 'Wrong password' });
 }
 

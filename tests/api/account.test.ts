@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { LOCKOUT } from '../../server/auth/lockout';
 import { auditLog, passwordResets, users } from '../../server/db/schema';
 import { createTestApp, DEMO, DEMO_PASSWORD, type TestApp } from '../helpers/app';
+import { setWrongPasswords, unlock, wrongPasswords } from '../helpers/lockout';
 
 let t: TestApp;
 
@@ -65,14 +66,14 @@ describe('changing one\'s own password', () => {
     expect(wrong.body.error.fields).toEqual({ currentPassword: 'Wrong password' });
     await t.signIn(DEMO.technician); // the old password still works
 
-    await t.db.update(users).set({ failedSignIns: LOCKOUT.maxFailures - 1 }).where(eq(users.id, id));
+    await setWrongPasswords(t.db, DEMO.technician, LOCKOUT.maxFailures - 1);
     expect((await change(tech, { currentPassword: 'still-wrong', newPassword: 'lantern over the moor' })).status).toBe(403);
     const locked = await change(tech, { currentPassword: DEMO_PASSWORD, newPassword: 'lantern over the moor' });
     expect(locked.status).toBe(429);
     expect(locked.body.error.fields).toHaveProperty('currentPassword');
     const lockout = await t.db.select().from(auditLog).where(and(eq(auditLog.action, 'lockout'), eq(auditLog.entityId, String(id))));
     expect(lockout).toHaveLength(1);
-    await t.db.update(users).set({ failedSignIns: 0, lockedUntil: null }).where(eq(users.id, id));
+    await unlock(t.db, DEMO.technician);
     await t.signIn(DEMO.technician, DEMO_PASSWORD); // unchanged
   });
 
@@ -94,8 +95,7 @@ describe('changing one\'s own password', () => {
     expect(missing.status).toBe(400);
     expect(missing.body.error.fields).toHaveProperty('currentPassword');
     expect((await change(owner, { currentPassword: DEMO_PASSWORD, newPassword: 'lantern over the moor', extra: 1 })).status).toBe(400);
-    const [u] = await t.db.select({ failed: users.failedSignIns }).from(users).where(eq(users.id, id));
-    expect(u.failed).toBe(0);
+    expect((await wrongPasswords(t.db, DEMO.owner)).failures).toBe(0);
     await t.signIn(DEMO.owner, DEMO_PASSWORD);
   });
 

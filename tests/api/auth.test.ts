@@ -2,6 +2,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { eq, sql } from 'drizzle-orm';
 import { auditLog, users } from '../../server/db/schema';
 import { createTestApp, DEMO, DEMO_PASSWORD, type TestApp } from '../helpers/app';
+import { unlock } from '../helpers/lockout';
 
 let t: TestApp;
 beforeAll(async () => {
@@ -62,7 +63,7 @@ describe('sign-in', () => {
     expect(wrong.status).toBe(401);
     expect(unknown.status).toBe(401);
     expect(wrong.body.error.message).toBe(unknown.body.error.message);
-    await t.db.update(users).set({ failedSignIns: 0 }).where(eq(users.email, DEMO.formulator));
+    await unlock(t.db, DEMO.formulator);
   });
 
   it('answers 401 to /me without a session', async () => {
@@ -83,7 +84,8 @@ describe('sign-in', () => {
     await t.db.update(users).set({ active: false }).where(eq(users.email, DEMO.otherTechnician));
     const res = await t.client().post('/api/auth/sign-in', { email: DEMO.otherTechnician, password: DEMO_PASSWORD });
     expect(res.status).toBe(401);
-    await t.db.update(users).set({ active: true, failedSignIns: 0 }).where(eq(users.email, DEMO.otherTechnician));
+    await t.db.update(users).set({ active: true }).where(eq(users.email, DEMO.otherTechnician));
+    await unlock(t.db, DEMO.otherTechnician);
   });
 });
 

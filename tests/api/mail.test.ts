@@ -147,13 +147,28 @@ describe('invitations', () => {
     expect(trail.map((a) => a.action)).toContain('create');
   });
 
+  it('an address with an account in another lab: answered like any invitation, and the person is told by e-mail', async () => {
+    const fresh = await owner.post('/api/invitations', { email: 'someone.new@copperbeech.example', role: 'formulator' });
+    const elsewhere = await owner.post('/api/invitations', { email: DEMO.otherTechnician, role: 'formulator' });
+    // The owner cannot tell the two apart: same status, same shape, both listed as pending.
+    expect(elsewhere.status).toBe(201);
+    expect(fresh.status).toBe(201);
+    expect(Object.keys(elsewhere.body.invitation).sort()).toEqual(Object.keys(fresh.body.invitation).sort());
+    expect(elsewhere.body.invitation).toMatchObject({ email: DEMO.otherTechnician, status: 'pending' });
+    const listed = (await owner.get('/api/invitations')).body.invitations.map((i: { email: string }) => i.email);
+    expect(listed).toEqual(expect.arrayContaining([DEMO.otherTechnician, 'someone.new@copperbeech.example']));
+    // The person learns why there is nothing to accept; no link is sent, their own account is unchanged.
+    const [mail] = await mailsTo(DEMO.otherTechnician);
+    expect(mail.subject).toMatch(/tried to invite you to Larkspur Skin Studio/);
+    expect(mail.text!.replace(/\s+/g, ' ')).toContain('already has a Keepwell account, at Copperbeech Naturals');
+    expect(mail.text).not.toMatch(/\/invitation\//);
+    await t.signIn(DEMO.otherTechnician);
+  });
+
   it('refuses an address that is already a member (409 naming "email"), bad input and other roles', async () => {
     const member = await owner.post('/api/invitations', { email: DEMO.technician, role: 'technician' });
     expect(member.status).toBe(409);
     expect(member.body.error.fields.email).toMatch(/already a member/);
-    const elsewhere = await owner.post('/api/invitations', { email: DEMO.otherTechnician, role: 'formulator' });
-    expect(elsewhere.status).toBe(409);
-    expect(elsewhere.body.error.fields.email).toBeTruthy();
 
     const bad = await owner.post('/api/invitations', { email: 'not-an-address', role: 'chemist', extra: 1 });
     expect(bad.status).toBe(400);

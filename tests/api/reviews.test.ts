@@ -4,6 +4,8 @@ import { auditLog, labs, users } from '../../server/db/schema';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 import { createTestApp, DEMO, DEMO_PASSWORD, type Client, type TestApp } from '../helpers/app';
 import { makeCatalogue, planFor, type Catalogue } from '../helpers/fixtures';
+import { unlock, wrongPasswords } from '../helpers/lockout';
+import { LOCKOUT } from '../../server/auth/lockout';
 
 let t: TestApp;
 let owner: Client, formulator: Client, technician: Client, otherOwner: Client;
@@ -87,11 +89,18 @@ describe('signing decisions', () => {
     expect(res.body.error.fields).toHaveProperty('password');
     const logged = await t.db.select().from(auditLog).where(and(eq(auditLog.action, 'sign_failed'), eq(auditLog.entityId, String(id))));
     expect(logged).toHaveLength(1);
-    await t.db.update(users).set({ failedSignIns: 4 }).where(eq(users.email, DEMO.owner));
-    await owner.post(`/api/studies/${id}/decisions`, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12, password: 'still-wrong' });
+    // 40 wrong passwords at the same moment: the 4 left before the limit are checked, the rest refused; then the right one is refused too.
+    const burst = await Promise.all(
+      Array.from({ length: 40 }, (_, i) =>
+        owner.post(`/api/studies/${id}/decisions`, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12, password: `still-wrong-${i}` }),
+      ),
+    );
+    expect(burst.filter((r) => r.status === 403)).toHaveLength(LOCKOUT.maxFailures - 1);
+    expect(burst.filter((r) => r.status === 429)).toHaveLength(40 - (LOCKOUT.maxFailures - 1));
     const locked = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: 12 });
     expect(locked.status).toBe(429);
-    await t.db.update(users).set({ failedSignIns: 0, lockedUntil: null }).where(eq(users.email, DEMO.owner));
+    expect(Number(locked.headers['retry-after'])).toBeGreaterThan(0);
+    await unlock(t.db, DEMO.owner);
   });
 
   it('refuses a shelf life of zero, negative or over 120 months, and superseding without a reason', async () => {
@@ -188,8 +197,7 @@ describe('signing decisions', () => {
     const longer = await sign(owner, id, { variantId: variantIds[0], outcome: 'released', shelfLifeMonths: suggested + 1, password: 'a wrong one, not checked' });
     expect(longer.status).toBe(400);
     expect(longer.body.error.fields.comment).toBe(`Longer than the data suggest (${suggested} ${suggested === 1 ? 'month' : 'months'}): say why in the comment`);
-    const [me] = await t.db.select({ failed: users.failedSignIns }).from(users).where(eq(users.email, DEMO.owner));
-    expect(me.failed).toBe(0);
+    expect((await wrongPasswords(t.db, DEMO.owner)).failures).toBe(0);
     const blank = await sign(owner, id, { variantId: variantIds[0], outcome: 'released_with_conditions', conditionsText: 'Store below 25 °C.', shelfLifeMonths: suggested + 6, comment: '   ' });
     expect(blank.body.error.fields).toHaveProperty('comment');
 

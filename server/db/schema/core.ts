@@ -8,6 +8,7 @@ import {
   mysqlTable,
   bigint,
   varchar,
+  char,
   text,
   mediumtext,
   int,
@@ -50,8 +51,6 @@ export const users = mysqlTable(
     passwordHash: varchar('password_hash', { length: 100 }).notNull(),
     role: mysqlEnum('role', ROLES).notNull(),
     active: boolean('active').notNull().default(true),
-    failedSignIns: int('failed_sign_ins').notNull().default(0),
-    lockedUntil: datetime('locked_until', { mode: 'date', fsp: 3 }),
     lastSignInAt: datetime('last_sign_in_at', { mode: 'date', fsp: 3 }),
     /** The member's own choice: the morning reminder digest by e-mail. */
     remindersEnabled: boolean('reminders_enabled').notNull().default(true),
@@ -59,6 +58,19 @@ export const users = mysqlTable(
   },
   (t) => [uniqueIndex('users_email_uq').on(t.email), index('users_lab_idx').on(t.labId)],
 );
+
+/**
+ * Wrong-password counting per e-mail address (known or not, so the answers never tell which),
+ * for sign-in, signing a decision and changing a password (server/auth/lockout.ts).
+ * The key is the SHA-256 of the lower-cased address, so unknown addresses are not kept in clear.
+ */
+export const passwordGuards = mysqlTable('password_guards', {
+  keyHash: char('key_hash', { length: 64 }).primaryKey(),
+  /** Attempts claimed since the last success or lock; an attempt counts from the moment it starts. */
+  failures: int('failures').notNull().default(0),
+  lockedUntil: datetime('locked_until', { mode: 'date', fsp: 3 }),
+  updatedAt: datetime('updated_at', { mode: 'date', fsp: 3 }).notNull(),
+});
 
 /**
  * Append-only audit trail. The app's database account may only INSERT and SELECT
