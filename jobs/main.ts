@@ -34,7 +34,11 @@ if (!config.DATABASE_URL && privateDatabaseRunning()) {
   process.exit(1);
 }
 
-const database = await openDatabase(config, log);
+// With DATABASE_URL this only checks the schema version: the job never needs DDL rights.
+const database = await openDatabase(config, log, { migrate: false }).catch((err: Error) => {
+  console.error(err.message);
+  process.exit(1);
+});
 const { db } = database;
 const mailer = mailerFor({ db, config, log });
 const fake = await mailer.start();

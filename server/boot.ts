@@ -9,7 +9,7 @@ import type { Config } from './config';
 import { createDb, createPool, type Db, type DbTarget, type Pool } from './db/client';
 import { grantAppAccount } from './db/grants';
 import { launchMariaDb, type LaunchedMariaDb } from './db/mariadb';
-import { runMigrations } from './db/migrate';
+import { assertSchemaCurrent, runMigrations } from './db/migrate';
 import type { Logger } from './log';
 
 export interface Database {
@@ -19,11 +19,15 @@ export interface Database {
   close(): Promise<void>;
 }
 
-export async function openDatabase(config: Config, log: Logger, opts: { fast?: boolean } = {}): Promise<Database> {
+/**
+ * `migrate: false` (the job runner): never change the schema of an existing database, only check that
+ * it is current, so the app's restricted account (no DDL rights) is enough.
+ */
+export async function openDatabase(config: Config, log: Logger, opts: { fast?: boolean; migrate?: boolean } = {}): Promise<Database> {
   let launched: LaunchedMariaDb | undefined;
   let target: DbTarget;
   if (config.DATABASE_URL) {
-    await runMigrations(config.MIGRATION_DATABASE_URL ?? config.DATABASE_URL);
+    if (opts.migrate !== false) await runMigrations(config.MIGRATION_DATABASE_URL ?? config.DATABASE_URL);
     target = config.DATABASE_URL;
   } else {
     launched = await launchMariaDb({
@@ -42,6 +46,14 @@ export async function openDatabase(config: Config, log: Logger, opts: { fast?: b
     target = launched.app;
   }
   const pool = createPool(target);
+  if (config.DATABASE_URL && opts.migrate === false) {
+    try {
+      await assertSchemaCurrent(pool);
+    } catch (err) {
+      await pool.end();
+      throw err;
+    }
+  }
   const db = createDb(pool);
   return {
     db,

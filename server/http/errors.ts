@@ -75,10 +75,41 @@ export function idParam(value: unknown): number {
 
 export const apiNotFound: RequestHandler = (_req, _res, next) => next(notFound('No such API route'));
 
+/** Error codes (mysql2 and the OS) that mean the database cannot be reached right now, not that the request was bad. */
+const DATABASE_GONE = new Set([
+  'ECONNREFUSED',
+  'ECONNRESET',
+  'ETIMEDOUT',
+  'EPIPE',
+  'ENOENT', // the socket file is missing while the server restarts
+  'PROTOCOL_CONNECTION_LOST',
+  'PROTOCOL_SEQUENCE_TIMEOUT',
+  'ER_SERVER_SHUTDOWN',
+  'ER_CON_COUNT_ERROR',
+  'ER_CONNECTION_KILLED',
+  'ER_CLIENT_INTERACTION_TIMEOUT',
+]);
+
+/** True when `err` (or the error a query builder wrapped) says the database went away. */
+export function databaseUnavailable(err: unknown): boolean {
+  for (let e = err as { code?: string; fatal?: boolean; message?: string; cause?: unknown } | undefined, depth = 0; e && depth < 4; e = e.cause as typeof e, depth++) {
+    if (e.code && DATABASE_GONE.has(e.code)) return true;
+    if (typeof e.message === 'string' && /connection is in closed state|Pool is closed/i.test(e.message)) return true;
+  }
+  return false;
+}
+
+/** Seconds a client is asked to wait when the database is unreachable. */
+export const DATABASE_RETRY_SECONDS = 5;
+
 export function errorHandler(log: (msg: string, err?: unknown) => void): ErrorRequestHandler {
   return (err, req, res, _next) => {
     let e: HttpError;
     if (err instanceof HttpError) e = err;
+    else if (databaseUnavailable(err)) {
+      log(`Database unreachable on ${req.method} ${req.originalUrl}: answered 503`, (err as Error)?.message);
+      e = new HttpError(503, 'unavailable', 'The database is not answering right now; try again in a few seconds', undefined, DATABASE_RETRY_SECONDS);
+    }
     else if (err?.type === 'entity.parse.failed') e = new HttpError(400, 'malformed_json', 'The request body is not valid JSON');
     else if (err?.type === 'entity.too.large') e = new HttpError(413, 'too_large', 'The request body is too large');
     else if (err?.type === 'encoding.unsupported' || err?.type === 'charset.unsupported')

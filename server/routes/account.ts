@@ -156,9 +156,7 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
     const expiresAt = new Date(t.getTime() + INVITATION_HOURS * 3_600_000);
     const { token, hash } = newToken();
     const lab = await labOf(db, me.labId);
-    let accountElsewhere: { labId: number; labName: string } | null = null;
-
-    const invitationId = await db.transaction(async (tx) => {
+    const { invitationId, accountElsewhere } = await db.transaction(async (tx) => {
       const [existing] = await tx
         .select({ labId: users.labId, labName: labs.name })
         .from(users)
@@ -170,7 +168,7 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
         throw conflict(message, { email: message });
       }
       // An account in another lab: answered like any invitation (so addresses cannot be probed); the person is told by e-mail instead.
-      accountElsewhere = existing ? { labId: existing.labId, labName: existing.labName } : null;
+      const accountElsewhere = existing ? { labId: existing.labId, labName: existing.labName } : null;
       // A new invitation replaces an earlier one still open for the same address.
       await tx
         .update(invitations)
@@ -188,7 +186,7 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
         entityId: id,
         newValue: { email: input.email, role: input.role, expiresAt: expiresAt.toISOString() },
       });
-      return id;
+      return { invitationId: id, accountElsewhere };
     });
 
     const mail = accountElsewhere

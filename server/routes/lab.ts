@@ -4,6 +4,7 @@ import { requireMember } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db } from '../db/client';
 import { labs } from '../db/schema';
+import { DATABASE_RETRY_SECONDS } from '../http/errors';
 
 export function labRoutes(db: Db): Router {
   const r = Router();
@@ -22,7 +23,7 @@ export function healthRoute(db: Db): Router {
       await db.execute(sql`SELECT 1`);
       res.json({ status: 'ok', database: 'up' });
     } catch {
-      res.status(503).json({ status: 'degraded', database: 'down' });
+      res.set('Retry-After', String(DATABASE_RETRY_SECONDS)).status(503).json({ status: 'degraded', database: 'down' });
     }
   });
   return r;

@@ -71,8 +71,8 @@ export interface TestApp {
 export async function createTestApp(overrides: Partial<AppDeps> = {}, opts: { demo?: 'people' | 'full' } = {}): Promise<TestApp> {
   const m = inject('mariadb');
   const database = `kw_${randomBytes(5).toString('hex')}`;
-  const admin: ConnectionTarget = { socketPath: m.socketPath, user: 'root', password: '', database };
-  const conn = await mysql.createConnection({ socketPath: m.socketPath, user: 'root', password: '' });
+  const admin: ConnectionTarget = { socketPath: m.socketPath, user: m.adminUser, password: '', database };
+  const conn = await mysql.createConnection({ socketPath: m.socketPath, user: m.adminUser, password: '' });
   await conn.query(`CREATE DATABASE \`${database}\``);
   await conn.end();
   await runMigrations(admin);
@@ -108,7 +108,7 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}, opts: { de
     async close() {
       await close();
       await pool.end();
-      const c = await mysql.createConnection({ socketPath: m.socketPath, user: 'root', password: '' });
+      const c = await mysql.createConnection({ socketPath: m.socketPath, user: m.adminUser, password: '' });
       await c.query(`DROP DATABASE IF EXISTS \`${database}\``);
       await c.end();
     },

@@ -11,6 +11,8 @@ import { launchMariaDb } from '../../server/db/mariadb';
 
 export interface TestMariaDb {
   socketPath: string;
+  /** The privileged account over the socket (socket authentication as the OS user). */
+  adminUser: string;
   port: number;
   appUser: string;
   appPassword: string;
@@ -28,6 +30,7 @@ export default async function setup(project: TestProject) {
   const server = await launchMariaDb({ baseDir: base, database: 'keepwell_test', fast: true });
   project.provide('mariadb', {
     socketPath: server.admin.socketPath!,
+    adminUser: server.admin.user,
     port: server.port,
     appUser: server.app.user,
     appPassword: server.app.password,
