@@ -115,6 +115,9 @@ export function errorHandler(log: (msg: string, err?: unknown) => void): ErrorRe
     else if (err?.type === 'encoding.unsupported' || err?.type === 'charset.unsupported')
       e = new HttpError(415, 'unsupported_type', 'Unsupported body encoding');
     else if (err instanceof z.ZodError) e = new HttpError(400, 'validation', 'Invalid input', fieldsFromZod(err));
+    // The router could not decode a %-escape in the path ('%zz', '%ED%A0%80'): it marks the error 400.
+    else if (err instanceof URIError && (err as URIError & { status?: number }).status === 400)
+      e = new HttpError(400, 'bad_request', 'The address contains a %-escape that does not decode to text');
     else {
       log(`Unhandled error on ${req.method} ${req.originalUrl}`, err);
       e = new HttpError(500, 'internal', 'Something went wrong on our side; it has been logged');

@@ -5,11 +5,11 @@
  * Started by the app when no SMTP settings are given.
  */
 import type { AddressInfo } from 'node:net';
+import { simpleParser, type AddressObject, type ParsedMail } from 'mailparser';
 import { SMTPServer } from 'smtp-server';
 import type { Db } from '../db/client';
 import { mailOutbox } from '../db/schema';
 import type { Logger } from '../log';
-import { parseMail } from './mime';
 
 /** Messages larger than this are refused (552), like a real service would. */
 export const FAKE_SMTP_MAX_BYTES = 5 * 1024 * 1024;
@@ -21,6 +21,36 @@ export interface FakeSmtp {
 }
 
 const clip = (s: string, n: number) => (s.length > n ? s.slice(0, n) : s);
+
+/** The stored fields of a captured message, read with mailparser. */
+export interface CapturedMail {
+  labHeader: string | null;
+  subject: string;
+  from: string;
+  to: string;
+  messageId: string | null;
+  /** The text/plain part; null when the message has only HTML. */
+  text: string | null;
+  /** The text/html part as sent (cid: links kept). */
+  html: string | null;
+}
+
+const addresses = (a: AddressObject | AddressObject[] | undefined) => (a ? (Array.isArray(a) ? a : [a]).map((x) => x.text).join(', ') : '');
+
+export async function readCapturedMail(raw: Buffer): Promise<CapturedMail> {
+  // No text made from HTML (or HTML from text), no links added, cid: links left alone.
+  const mail: ParsedMail = await simpleParser(raw, { skipHtmlToText: true, skipTextToHtml: true, skipTextLinks: true, skipImageLinks: true, keepCidLinks: true });
+  const lab = mail.headers.get('x-keepwell-lab');
+  return {
+    labHeader: typeof lab === 'string' ? lab.trim() : null,
+    subject: mail.subject ?? '',
+    from: addresses(mail.from),
+    to: addresses(mail.to),
+    messageId: mail.messageId?.trim() || null,
+    text: mail.text || null,
+    html: typeof mail.html === 'string' && mail.html ? mail.html : null,
+  };
+}
 
 export async function startFakeSmtp(opts: { db: Db; log: Logger; port?: number }): Promise<FakeSmtp> {
   const { db, log } = opts;
@@ -44,8 +74,8 @@ export async function startFakeSmtp(opts: { db: Db; log: Logger; port?: number }
         }
         const raw = Buffer.concat(chunks);
         (async () => {
-          const mail = parseMail(raw);
-          const labHeader = mail.headers.get('x-keepwell-lab');
+          const mail = await readCapturedMail(raw);
+          const labHeader = mail.labHeader;
           const labId = labHeader && /^[1-9][0-9]{0,15}$/.test(labHeader) ? Number(labHeader) : null;
           const envelopeTo = session.envelope.rcptTo.map((r) => r.address).join(', ');
           await db.insert(mailOutbox).values({

@@ -20,6 +20,7 @@ import { and, asc, desc, eq, inArray } from 'drizzle-orm';
 import { Router, type Request, type Response } from 'express';
 import multer from 'multer';
 import { relativeCentrifugalForce } from '../../shared/compute/storage';
+import { csvCell, csvLine } from '../../shared/csv';
 import {
   MAX_LOG_BYTES,
   chamberLogUploadFields,
@@ -406,12 +407,12 @@ export function storageRoutes(db: Db): Router {
     const name = `${downloadName(log.fileName)}-${resolution === 'chart' ? 'chart' : 'readings'}.csv`;
     res.set('Content-Type', 'text/csv; charset=utf-8');
     res.set('Content-Disposition', `attachment; filename="${name}"`);
-    const head = `time_utc,time_local (${tz}),temperature_c,rh_percent\r\n`;
+    const head = csvLine(['time_utc', `time_local (${tz})`, 'temperature_c', 'rh_percent']);
     const utc = utcFormatter(true);
     const local = utcFormatter();
     const clock = zoneClock(tz);
     const line = (t: number, temp: number | null, rh: number | null) =>
-      `${utc(t)},${local(clock.toWallClock(t)).slice(0, 19)},${temp == null ? '' : round4(temp)},${rh == null ? '' : round4(rh)}\r\n`;
+      `${utc(t)},${local(clock.toWallClock(t)).slice(0, 19)},${csvCell(temp == null ? null : round4(temp))},${csvCell(rh == null ? null : round4(rh))}\r\n`;
     if (resolution === 'chart') {
       const s = await seriesOf(db, log, from, to);
       const rows = new Map<number, [number | null, number | null]>();

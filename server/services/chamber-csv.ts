@@ -13,13 +13,15 @@
  * - ISO 8601 with or without T, seconds, fraction, Z or offset; YYYY/MM/DD; DD/MM/YYYY or MM/DD/YYYY
  *   (two-digit years as 20yy; AM/PM allowed), decided from the file when a day above 12 shows it,
  *   else by the caller's `dateOrder` (default DMY); DD.MM.YYYY. Times without an offset are in the
- *   lab's time zone.
+ *   lab's time zone. Years 1900 to 2199 only.
+ * The preamble and the header row are skipped before csv-parse sees the rows, so a quote mark in a
+ * logger's preamble ('Serial: "EL-USB-2"') is just text.
  * Rows must be in time order (equal times allowed): logger exports are, so a row that goes back in
  * time means a wrong date order or a spliced file, and is refused with its line number.
  * Any bad row stops the read with a CsvProblem naming the line.
  */
 import { Readable, pipeline } from 'node:stream';
-import { parse } from 'csv-parse';
+import { CsvError, parse } from 'csv-parse';
 import { fahrenheitToCelsius } from '../../shared/compute/units';
 import { MAX_READING_C, MIN_READING_C } from '../../shared/schemas/storage';
 import { daysInMonth, ZoneClock } from '../../shared/zoned-time';
@@ -287,6 +289,10 @@ const ISO_RE =
 const DAY_FIRST_RE =
   /^(\d{1,2})([/.-])(\d{1,2})\2(\d{4}|\d{2})(?:(?:T|\s+|,\s*)(\d{1,2}):(\d{2})(?::(\d{2})(?:[.,](\d{1,9}))?)?\s*(?:([AaPp])\.?[Mm]\.?)?)?$/;
 
+/** Years a reading may carry (the app's date range). */
+const MIN_YEAR = 1900;
+const MAX_YEAR = 2199;
+
 const FORMAT_HINT = 'e.g. 2026-03-25 14:00, 2026-03-25T14:00:00Z, 25/03/2026 14:00 or 25.03.2026 14:00';
 
 /** Reads one timestamp cell; returns a message when it is not a time this module reads. */
@@ -322,6 +328,8 @@ export function readTimestamp(text: string, order: DateOrder): ReadTime | string
     return `time '${clip(s)}' is not a date and time this app reads (${FORMAT_HINT})`;
   }
   if (mo < 1 || mo > 12 || d < 1 || d > daysInMonth(y, mo)) return `'${clip(s)}' is not a valid ${orderName} date`;
+  // Date.UTC would read years 0-99 as 1900-1999, and a time after 9999 does not fit the database.
+  if (y < MIN_YEAR || y > MAX_YEAR) return `'${clip(s)}' is outside the years ${MIN_YEAR} to ${MAX_YEAR}`;
   let hour = Number(hh);
   if (ampm) {
     if (hour < 1 || hour > 12) return `'${clip(s)}' has hour ${hour} with AM/PM`;
@@ -352,13 +360,47 @@ export function readNumber(text: string): number {
   return Number(text.indexOf(',') === -1 ? text : text.replace(',', '.'));
 }
 
+/** csv-parse's error codes (some written with "CSV_", some without), in words. */
 const CSV_ERRORS: Record<string, string> = {
-  CSV_INVALID_CLOSING_QUOTE: 'a quote mark in the middle of a field (quotes inside a field must be doubled)',
-  CSV_QUOTE_NOT_CLOSED: 'a quote mark that is never closed',
-  CSV_MAX_RECORD_SIZE: 'the line is too long to be a logger reading',
-  CSV_INVALID_OPENING_QUOTE: 'a quote mark in the middle of a field',
-  CSV_RECORD_INCONSISTENT_FIELDS_LENGTH: 'the number of columns differs from the header',
+  INVALID_CLOSING_QUOTE: 'a quote mark in the middle of a field (quotes inside a field must be doubled)',
+  QUOTE_NOT_CLOSED: 'a quote mark opened on this line or above is never closed',
+  MAX_RECORD_SIZE: 'the line is too long to be a logger reading',
+  INVALID_OPENING_QUOTE: 'a quote mark in the middle of a field',
+  NON_TRIMABLE_CHAR_AFTER_CLOSING_QUOTE: 'text after a closing quote mark',
+  RECORD_INCONSISTENT_FIELDS_LENGTH: 'the number of columns differs from the header',
 };
+
+/**
+ * The file from the line after its header row: preamble and header are dropped byte by byte (line
+ * breaks LF, CRLF or CR, counted as detectLayout counts them), so csv-parse never reads them.
+ */
+async function* afterHeader(input: AsyncIterable<Buffer | string>, lines: number): AsyncGenerator<Buffer | string> {
+  let toSkip = lines;
+  let pendingCr = false;
+  for await (const chunk of input) {
+    if (toSkip === 0 && !pendingCr) {
+      yield chunk;
+      continue;
+    }
+    const at = (i: number) => (typeof chunk === 'string' ? chunk.charCodeAt(i) : chunk[i]);
+    let i = 0;
+    if (pendingCr && chunk.length) {
+      pendingCr = false;
+      if (at(0) === 0x0a) i = 1;
+    }
+    while (toSkip > 0 && i < chunk.length) {
+      const c = at(i++);
+      if (c === 0x0a) toSkip--;
+      else if (c === 0x0d) {
+        toSkip--;
+        if (i < chunk.length) {
+          if (at(i) === 0x0a) i++;
+        } else pendingCr = true;
+      }
+    }
+    if (i < chunk.length) yield typeof chunk === 'string' ? chunk.slice(i) : chunk.subarray(i);
+  }
+}
 
 const LINE_BREAK_IN_QUOTES = 'a line break inside quotes (a logger reading fits on one line)';
 
@@ -408,13 +450,12 @@ export async function* readChamberCsv(
     bom: true,
     encoding: layout.encoding,
     delimiter: layout.delimiter,
-    from_line: layout.headerLine + 1,
     skip_empty_lines: false,
     relax_column_count: true,
     trim: true,
     max_record_size: 64 * 1024,
   });
-  const source = input instanceof Readable ? input : Readable.from(input);
+  const source = Readable.from(afterHeader(input, layout.headerLine));
   // Errors of the source reach the parser, and so the loop below; leaving the loop destroys both.
   pipeline(source, parser, () => {});
 
@@ -486,10 +527,11 @@ export async function* readChamberCsv(
     }
   } catch (err) {
     if (err instanceof CsvProblem) throw err;
-    const e = err as { code?: string; lines?: number; message?: string };
-    if (e && typeof e.code === 'string' && e.code.startsWith('CSV_')) {
-      const line = typeof e.lines === 'number' ? e.lines : undefined;
-      const what = CSV_ERRORS[e.code] ?? (e.message?.split(':')[0] ?? 'unreadable CSV').toLowerCase();
+    if (err instanceof CsvError) {
+      // csv-parse counts lines from the first row after the header.
+      const e = err as CsvError & { lines?: number };
+      const line = typeof e.lines === 'number' ? e.lines + layout.headerLine : undefined;
+      const what = CSV_ERRORS[String(e.code).replace(/^CSV_/, '')] ?? (e.message.split(':')[0] || 'unreadable CSV').toLowerCase();
       throw new CsvProblem(`${line ? `line ${line}: ` : ''}${what}`, 'file', line);
     }
     throw err;

@@ -1,12 +1,14 @@
 /**
  * Bulk import of instrument readings (CSV: sample code, attribute, value, time
- * read). Preview reports every line's problem; import is all or nothing.
+ * read). Preview answers the first lines, the counts and the problems (capped: a
+ * file may have 100 000+ lines); import is all or nothing.
  */
 import { parse as parseCsv } from 'csv-parse/sync';
 import { and, eq, inArray } from 'drizzle-orm';
 import { COMPARED_LEVELS, type ComparedLevel } from '../../shared/compute/criteria';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
-import type { ImportPreviewRow } from '../../shared/schemas/records';
+import { isCalendarDate } from '../../shared/schemas/common';
+import type { ImportPreview, ImportPreviewRow } from '../../shared/schemas/records';
 import type { Db, DbOrTx } from '../db/client';
 import { attributes, checkpoints, observations, samples, studies, studyAttributes } from '../db/schema';
 import { conflict, HttpError, notFound } from '../http/errors';
@@ -46,19 +48,46 @@ function parseValue(kind: string, raw: string): number | string | boolean | stri
 /** Lab-local date of a reading time: with an offset it is converted, without one it is taken as lab time. */
 function localDateOf(readAt: string, timeZone: string): string | null {
   const s = readAt.trim();
-  if (/^\d{4}-\d{2}-\d{2}([ T]\d{2}:\d{2}(:\d{2}(\.\d+)?)?)?$/.test(s)) return s.slice(0, 10);
-  if (/^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(:\d{2}(\.\d+)?)?(Z|[+-]\d{2}:?\d{2})$/.test(s)) {
+  // A real calendar date in the app's range, and a real time of day.
+  const real = (day: string, hh = '0', mm = '0', ss = '0') => isCalendarDate(day) && Number(hh) < 24 && Number(mm) < 60 && Number(ss) < 60;
+  let m = /^(\d{4}-\d{2}-\d{2})(?:[ T](\d{2}):(\d{2})(?::(\d{2})(?:\.\d+)?)?)?$/.exec(s);
+  if (m) return real(m[1], m[2], m[3], m[4]) ? m[1] : null;
+  m = /^(\d{4}-\d{2}-\d{2})T(\d{2}):(\d{2})(?::(\d{2})(?:\.\d+)?)?(Z|[+-]\d{2}:?\d{2})$/.exec(s);
+  if (m && real(m[1], m[2], m[3], m[4])) {
     const d = new Date(s);
-    return Number.isNaN(d.getTime()) ? null : localDateInZone(d, timeZone);
+    if (Number.isNaN(d.getTime())) return null;
+    const day = localDateInZone(d, timeZone);
+    return isCalendarDate(day) ? day : null;
   }
   return null;
 }
 
+/** Lines the preview shows, and problems it lists (the counts are always complete). */
+export const PREVIEW_ROWS = 50;
+export const PREVIEW_ERRORS = 200;
+
 export interface ImportPlan {
+  /** The first PREVIEW_ROWS lines. */
   rows: ImportPreviewRow[];
+  /** Lines below the header. */
+  totalRows: number;
+  /** Every line's problem, in file order. */
+  errors: { line: number; message: string }[];
   /** Entries grouped by sample code and checkpoint, ready for recording. */
   groups: Map<string, { code: string; checkpointId: number; entries: { studyAttributeId: number; value: number | string | boolean; method: Record<string, string> }[] }>;
   errorCount: number;
+}
+
+/** What POST /studies/:id/import/preview answers: the first lines, the counts, the first problems. */
+export function previewOf(plan: ImportPlan): ImportPreview {
+  return {
+    rows: plan.rows,
+    totalRows: plan.totalRows,
+    okRows: plan.totalRows - plan.errorCount,
+    errorCount: plan.errorCount,
+    errors: plan.errors.slice(0, PREVIEW_ERRORS),
+    moreErrors: Math.max(0, plan.errors.length - PREVIEW_ERRORS),
+  };
 }
 
 export async function planImport(db: DbOrTx, labId: number, studyId: number, timeZone: string, csv: string): Promise<ImportPlan> {
@@ -94,8 +123,13 @@ export async function planImport(db: DbOrTx, labId: number, studyId: number, tim
     .where(and(eq(observations.labId, labId), eq(observations.studyId, studyId)));
 
   const rows: ImportPreviewRow[] = [];
+  const errors: ImportPlan['errors'] = [];
   const groups: ImportPlan['groups'] = new Map();
   const seen = new Set<string>();
+  const sampleByCode = new Map(sampleRows.map((s) => [s.code, s]));
+  const attrByCode = new Map(attrRows.map((a) => [a.a.code, a]));
+  const recorded = new Set(existing.map((e) => `${e.sampleId}:${e.checkpointId}:${e.saId}`));
+  const windows = cpRows.map((cp) => ({ cp, from: addDays(cp.dueDate, -cp.windowBefore), to: addDays(cp.dueDate, cp.windowAfter), due: Date.parse(cp.dueDate) }));
   records.slice(1).forEach((rec, i) => {
     const line = i + 2;
     const get = (k: string) => (rec[col[k]] ?? '').trim();
@@ -109,38 +143,46 @@ export async function planImport(db: DbOrTx, labId: number, studyId: number, tim
       evaluation: null,
       error: null,
     };
-    rows.push(row);
-    const sample = sampleRows.find((s) => s.code === row.sampleCode);
-    if (!sample) return void (row.error = `Line ${line}: no sample ${row.sampleCode || '(empty)'} in this study`);
-    const at = attrRows.find((a) => a.a.code === row.attributeCode);
-    if (!at) return void (row.error = `Line ${line}: attribute "${row.attributeCode}" is not part of this study`);
+    if (rows.length < PREVIEW_ROWS) rows.push(row);
+    const fail = (message: string) => {
+      row.error = message;
+      errors.push({ line, message });
+    };
+    const sample = sampleByCode.get(row.sampleCode);
+    if (!sample) return fail(`Line ${line}: no sample ${row.sampleCode || '(empty)'} in this study`);
+    const at = attrByCode.get(row.attributeCode);
+    if (!at) return fail(`Line ${line}: attribute "${row.attributeCode}" is not part of this study`);
     const value = parseValue(at.a.kind, row.value);
-    if (typeof value === 'symbol') return void (row.error = `Line ${line}: "${row.value}" is not a valid ${at.a.name} value`);
+    if (typeof value === 'symbol') return fail(`Line ${line}: "${row.value}" is not a valid ${at.a.name} value`);
     const day = localDateOf(row.readAt, timeZone);
-    if (!day) return void (row.error = `Line ${line}: time read "${row.readAt}" is not a date and time (use YYYY-MM-DD HH:mm)`);
-    const candidates = cpRows
-      .filter((c) => c.studyConditionId === sample.studyConditionId)
-      .filter((c) => addDays(c.dueDate, -c.windowBefore) <= day && day <= addDays(c.dueDate, c.windowAfter))
-      .sort((a, b) => Math.abs(Date.parse(a.dueDate) - Date.parse(day)) - Math.abs(Date.parse(b.dueDate) - Date.parse(day)));
-    const cp = candidates[0];
-    if (!cp) return void (row.error = `Line ${line}: no open checkpoint window for sample ${row.sampleCode} on ${day}`);
+    if (!day) return fail(`Line ${line}: time read "${row.readAt}" is not a date and time (use YYYY-MM-DD HH:mm)`);
+    const dayMs = Date.parse(day);
+    const cp = windows
+      .filter((w) => w.cp.studyConditionId === sample.studyConditionId && w.from <= day && day <= w.to)
+      .sort((a, b) => Math.abs(a.due - dayMs) - Math.abs(b.due - dayMs))[0]?.cp;
+    if (!cp) return fail(`Line ${line}: no open checkpoint window for sample ${row.sampleCode} on ${day}`);
     row.checkpointLabel = cp.label;
     const key = `${sample.id}:${cp.id}:${at.sa.id}`;
-    if (seen.has(key) || existing.some((e) => e.sampleId === sample.id && e.checkpointId === cp.id && e.saId === at.sa.id)) {
-      return void (row.error = `Line ${line}: ${at.a.name} of ${row.sampleCode} at ${cp.label} is already recorded`);
-    }
+    if (seen.has(key) || recorded.has(key)) return fail(`Line ${line}: ${at.a.name} of ${row.sampleCode} at ${cp.label} is already recorded`);
     seen.add(key);
     const gk = `${sample.code}:${cp.id}`;
     if (!groups.has(gk)) groups.set(gk, { code: sample.code, checkpointId: cp.id, entries: [] });
     groups.get(gk)!.entries.push({ studyAttributeId: at.sa.id, value, method: { readAt: row.readAt, source: 'import' } });
   });
-  return { rows, groups, errorCount: rows.filter((r) => r.error).length };
+  return { rows, totalRows: records.length - 1, errors, groups, errorCount: errors.length };
 }
 
 /** Imports every reading or none (one transaction through the recording path). */
 export async function runImport(db: Db, who: Recorder, plan: ImportPlan, today: string): Promise<number> {
   if (plan.errorCount) {
-    throw new HttpError(422, 'unprocessable', `${plan.errorCount} line(s) have problems; nothing was imported`, Object.fromEntries(plan.rows.filter((r) => r.error).map((r) => [`line.${r.line}`, r.error!])));
+    const listed = plan.errors.slice(0, PREVIEW_ERRORS);
+    const more = plan.errorCount - listed.length;
+    throw new HttpError(
+      422,
+      'unprocessable',
+      `${plan.errorCount} line(s) have problems; nothing was imported${more ? ` (the first ${listed.length} are listed)` : ''}`,
+      Object.fromEntries(listed.map((e) => [`line.${e.line}`, e.message])),
+    );
   }
   let n = 0;
   await db.transaction(async (tx) => {

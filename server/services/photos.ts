@@ -1,13 +1,16 @@
 /**
  * Photos of a sample at a checkpoint. The type is decided by the file's bytes
- * (never its name or claimed type); files get server-generated names in a folder
- * outside the web root; a thumbnail is made for lists. All or nothing per upload.
+ * (never its name or claimed type) and the pixel count by the header, before any
+ * decoding; files get server-generated names in a folder outside the web root.
+ * Beside each original: a thumbnail for lists and a display copy (re-encoded,
+ * turned upright, no EXIF/GPS or other metadata) that viewers get; the original
+ * only as an explicit download. All or nothing per upload.
  */
-import { randomBytes } from 'node:crypto';
-import { mkdir, rm, writeFile } from 'node:fs/promises';
+import { createHash, randomBytes } from 'node:crypto';
+import { access, mkdir, readFile, rename, rm, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { fileTypeFromBuffer } from 'file-type';
-import sharp from 'sharp';
+import sharp, { type Metadata } from 'sharp';
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import type { PhotoView } from '../../shared/schemas/records';
 import type { Db, DbOrTx } from '../db/client';
@@ -16,6 +19,11 @@ import { HttpError } from '../http/errors';
 import { audit } from './audit';
 
 export const PHOTO_LIMITS = { fileSize: 15 * 1024 * 1024, files: 6 };
+/** Largest photo accepted, in megapixels (width x height / 1,000,000), checked from the header before decoding. */
+export const PHOTO_MAX_MEGAPIXELS = 40;
+const MAX_PIXELS = PHOTO_MAX_MEGAPIXELS * 1_000_000;
+/** Long edge of the display copy that viewers get. */
+export const DISPLAY_MAX_EDGE = 2048;
 const ALLOWED = { 'image/jpeg': 'jpg', 'image/png': 'png', 'image/webp': 'webp' } as const;
 type AllowedMime = keyof typeof ALLOWED;
 
@@ -30,12 +38,31 @@ interface Checked {
   mime: AllowedMime;
   width: number;
   height: number;
+  sha256: string;
   thumb: Buffer;
+  display: Buffer;
 }
 
-/** Refuses anything that is not really a JPEG, PNG or WebP image (415), naming the file. */
+const megapixels = (pixels: number) => Math.round(pixels / 100_000) / 10;
+
+/** Decodes at most MAX_PIXELS; `failOn: 'error'` refuses truncated files. */
+const decode = (buffer: Buffer) => sharp(buffer, { failOn: 'error', limitInputPixels: MAX_PIXELS });
+
+/** The display copy: upright, at most DISPLAY_MAX_EDGE px, WebP; sharp writes no metadata unless asked. */
+const displayCopy = (buffer: Buffer) =>
+  decode(buffer).rotate().resize({ width: DISPLAY_MAX_EDGE, height: DISPLAY_MAX_EDGE, fit: 'inside', withoutEnlargement: true }).webp({ quality: 82 }).toBuffer();
+
+/** The display copy's file name, derived from the original's stored name (no column of its own). */
+export function displayNameOf(storedName: string): string {
+  return `${storedName.replace(/\.[A-Za-z0-9]+$/, '')}.display.webp`;
+}
+
+/**
+ * Refuses anything that is not really a JPEG, PNG or WebP image (415) or that has more than
+ * PHOTO_MAX_MEGAPIXELS (413, read from the header before any file is decoded), naming the file.
+ */
 export async function checkImages(files: IncomingFile[]): Promise<Checked[]> {
-  const out: Checked[] = [];
+  const headers: { file: IncomingFile; mime: AllowedMime; width: number; height: number }[] = [];
   for (const [i, file] of files.entries()) {
     const type = await fileTypeFromBuffer(file.buffer);
     if (!type || !(type.mime in ALLOWED)) {
@@ -43,16 +70,80 @@ export async function checkImages(files: IncomingFile[]): Promise<Checked[]> {
         [`photos.${i}`]: `Not a JPEG, PNG or WebP image (${type?.mime ?? 'unknown content'})`,
       });
     }
+    let meta: Metadata;
     try {
-      const img = sharp(file.buffer, { failOn: 'error' });
-      const meta = await img.metadata();
-      const thumb = await img.rotate().resize({ width: 360, height: 360, fit: 'inside', withoutEnlargement: true }).webp({ quality: 78 }).toBuffer();
-      out.push({ file, mime: type.mime as AllowedMime, width: meta.width ?? 0, height: meta.height ?? 0, thumb });
+      // The header only: metadata() decodes no pixels, so no limit is needed to read the size.
+      meta = await sharp(file.buffer, { failOn: 'error', limitInputPixels: false }).metadata();
     } catch {
       throw new HttpError(415, 'unsupported_type', `${file.originalname} is damaged or truncated`, { [`photos.${i}`]: 'Damaged or truncated image' });
     }
+    const pixels = meta.width * meta.height;
+    if (pixels > MAX_PIXELS) {
+      const mp = megapixels(pixels);
+      throw new HttpError(
+        413,
+        'too_large',
+        `${file.originalname} is ${meta.width} × ${meta.height} pixels (${mp} megapixels); a photo may have at most ${PHOTO_MAX_MEGAPIXELS} megapixels`,
+        { [`photos.${i}`]: `At most ${PHOTO_MAX_MEGAPIXELS} megapixels; this one is ${mp}` },
+      );
+    }
+    headers.push({ file, mime: type.mime as AllowedMime, width: meta.autoOrient?.width ?? meta.width, height: meta.autoOrient?.height ?? meta.height });
+  }
+  const out: Checked[] = [];
+  for (const [i, h] of headers.entries()) {
+    try {
+      const display = await displayCopy(h.file.buffer);
+      // From the display copy: already upright, and far smaller to decode than the original.
+      const thumb = await sharp(display).resize({ width: 360, height: 360, fit: 'inside', withoutEnlargement: true }).webp({ quality: 78 }).toBuffer();
+      const sha256 = createHash('sha256').update(h.file.buffer).digest('hex');
+      out.push({ ...h, sha256, thumb, display });
+    } catch {
+      throw new HttpError(415, 'unsupported_type', `${h.file.originalname} is damaged or truncated`, { [`photos.${i}`]: 'Damaged or truncated image' });
+    }
   }
   return out;
+}
+
+/**
+ * The display copy of a stored photo, made now if missing (photos stored before display copies
+ * existed). Written under a temporary name and renamed, so a reader never sees half a file.
+ * Throws ENOENT when the original is missing too; 413 when the original is over the pixel limit.
+ */
+export async function ensureDisplayCopy(dir: string, storedName: string): Promise<string> {
+  const name = displayNameOf(storedName);
+  try {
+    await access(join(dir, name));
+    return name;
+  } catch {
+    // made below
+  }
+  const original = await readFile(join(dir, storedName));
+  const meta = await sharp(original, { limitInputPixels: false }).metadata();
+  if (meta.width * meta.height > MAX_PIXELS) {
+    throw new HttpError(413, 'too_large', `This photo has ${megapixels(meta.width * meta.height)} megapixels, over the ${PHOTO_MAX_MEGAPIXELS} megapixel limit for viewing; download the original instead`);
+  }
+  const tmp = `${name}.${randomBytes(6).toString('hex')}.tmp`;
+  try {
+    await writeFile(join(dir, tmp), await displayCopy(original), { flag: 'wx' });
+    await rename(join(dir, tmp), join(dir, name));
+  } finally {
+    await rm(join(dir, tmp), { force: true });
+  }
+  return name;
+}
+
+/**
+ * Content-Disposition for downloading an original: the uploaded name made safe and ending in its
+ * real type's extension; an ASCII `filename` and, for other names, `filename*` (RFC 6266, RFC 5987).
+ */
+export function attachmentHeader(originalName: string, mime: string): string {
+  const ext = ALLOWED[mime as AllowedMime] ?? 'bin';
+  let name = originalName.replace(/[\\/\x00-\x1f\x7f"]+/g, '_').trim().slice(0, 150) || 'photo';
+  if (!(ext === 'jpg' ? /\.jpe?g$/i : new RegExp(`\\.${ext}$`, 'i')).test(name)) name = `${name}.${ext}`;
+  const ascii = name.replace(/[^\x20-\x7e]/g, '_').replace(/[\\%]/g, '_');
+  if (ascii === name) return `attachment; filename="${name}"`;
+  const encoded = encodeURIComponent(name).replace(/['()*]/g, (c) => `%${c.charCodeAt(0).toString(16).toUpperCase()}`);
+  return `attachment; filename="${ascii}"; filename*=UTF-8''${encoded}`;
 }
 
 /** Writes the files, then the rows in one transaction; removes the files if the rows fail. */
@@ -75,6 +166,8 @@ export async function savePhotos(
       written.push(storedName);
       await writeFile(join(dir, thumbName), c.thumb, { flag: 'wx' });
       written.push(thumbName);
+      await writeFile(join(dir, displayNameOf(storedName)), c.display, { flag: 'wx' });
+      written.push(displayNameOf(storedName));
       named.push({ c, storedName, thumbName });
     }
     return await db.transaction(async (tx) => {
@@ -105,7 +198,7 @@ export async function savePhotos(
           entity: 'photo',
           entityId: id,
           studyId: target.studyId,
-          newValue: { sample: target.sampleCode, checkpoint: target.checkpointLabel, file: c.file.originalname, bytes: c.file.size },
+          newValue: { sample: target.sampleCode, checkpoint: target.checkpointLabel, file: c.file.originalname, bytes: c.file.size, sha256: c.sha256 },
         });
       }
       return ids;
@@ -138,6 +231,7 @@ export async function photosFor(
     id: p.id,
     url: `/api/photos/${p.id}`,
     thumbUrl: `/api/photos/${p.id}/thumb`,
+    originalUrl: `/api/photos/${p.id}/original`,
     width: p.width,
     height: p.height,
     caption: p.caption,

@@ -1,5 +1,6 @@
 /** Invitations, password reset, personal preferences and reminder settings: shared by client and server. */
 import { z } from 'zod';
+import { text } from './common';
 import { isValidTimeZone } from '../compute/schedule';
 import { ROLES } from '../roles';
 import { email, role } from './auth';
@@ -11,13 +12,12 @@ export const PASSWORD_MAX_BYTES = 72;
 const utf8Length = (s: string) => new TextEncoder().encode(s).length;
 
 /** At least 10 characters, no composition rules (the server also refuses common passwords). */
-export const newPassword = z
-  .string()
+export const newPassword = text()
   .min(PASSWORD_MIN, `At least ${PASSWORD_MIN} characters; a few unrelated words make a good one`)
   .max(PASSWORD_MAX_BYTES, `At most ${PASSWORD_MAX_BYTES} characters`)
   .refine((s) => utf8Length(s) <= PASSWORD_MAX_BYTES, `Too long: at most ${PASSWORD_MAX_BYTES} bytes (fewer characters with accents or symbols)`);
 
-export const personName = z.string().trim().min(1, 'Enter the name your colleagues will see').max(120, 'At most 120 characters');
+export const personName = text().trim().min(1, 'Enter the name your colleagues will see').max(120, 'At most 120 characters');
 
 export const inviteInput = z.strictObject({ email, role });
 export type InviteInput = z.infer<typeof inviteInput>;
@@ -43,8 +43,7 @@ export type ChangePasswordInput = z.infer<typeof changePasswordInput>;
 export const preferencesInput = z.strictObject({ remindersEnabled: z.boolean({ message: 'Choose on or off' }) });
 export type PreferencesInput = z.infer<typeof preferencesInput>;
 
-export const timeZone = z
-  .string()
+export const timeZone = text()
   .trim()
   .min(1, 'Enter a time zone such as Europe/Berlin')
   .max(64, 'At most 64 characters')

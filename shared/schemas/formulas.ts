@@ -4,6 +4,7 @@
  * to check before sending, so both give the same messages.
  */
 import { z } from 'zod';
+import { calendarDate, text } from './common';
 import { INGREDIENT_FUNCTIONS, PRODUCT_TYPES, type IngredientFunction, type ProductType } from '../domain';
 import { roundTo } from '../compute/units';
 import type { DiffStatus, FormulaTotal, RangeWarning } from '../compute/formula';
@@ -16,16 +17,14 @@ export const MAX_BATCH_GRAMS = 1_000_000;
 const decimals = (x: number, places: number) => Math.abs(x * 10 ** places - Math.round(x * 10 ** places)) < 1e-6;
 
 const requiredText = (max: number, empty: string) =>
-  z
-    .string({ error: 'Enter text' })
+  text()
     .trim()
     .min(1, empty)
     .max(max, `At most ${max} characters`);
 
 /** Optional free text: '' and null both mean "none". */
 const optionalText = (max: number) =>
-  z
-    .string({ error: 'Enter text' })
+  text()
     .trim()
     .max(max, `At most ${max} characters`)
     .transform((s) => (s === '' ? null : s))
@@ -105,8 +104,7 @@ export const formulaLineInput = z.strictObject({
 });
 export type FormulaLineInput = z.input<typeof formulaLineInput>;
 
-export const variantCode = z
-  .string({ error: 'Enter a short code, e.g. A' })
+export const variantCode = text('Enter a short code, e.g. A')
   .trim()
   .min(1, 'Enter a short code, e.g. A')
   .max(16, 'At most 16 characters')
@@ -203,14 +201,8 @@ export const scaleQuery = z
 export const FILL_UNITS = ['g', 'mL'] as const;
 export type FillUnit = (typeof FILL_UNITS)[number];
 
-/** A calendar date as YYYY-MM-DD that exists. */
-export const isoDate = z
-  .string({ error: 'Enter a date' })
-  .regex(/^\d{4}-\d{2}-\d{2}$/, 'Enter a date as YYYY-MM-DD')
-  .refine((s) => {
-    const d = new Date(`${s}T00:00:00Z`);
-    return !Number.isNaN(d.getTime()) && d.toISOString().slice(0, 10) === s && s >= '1970-01-01';
-  }, 'Not a real date');
+/** A calendar date as YYYY-MM-DD that exists, 1900-01-01..2199-12-31 (the shared date schema). */
+export const isoDate = calendarDate;
 
 /** Today's date (YYYY-MM-DD) in the given IANA time zone. */
 export function todayIn(timeZone: string, now = new Date()): string {

@@ -1,5 +1,6 @@
 /** Submitting a study for review, the owner's signed decision, and superseding one. */
 import { z } from 'zod';
+import { text } from './common';
 import { DECISION_OUTCOMES, type DecisionOutcome } from '../domain';
 import { offset } from './studies';
 
@@ -11,7 +12,7 @@ const months = (what: string) =>
     .max(120, `The ${what} cannot exceed 120 months`);
 
 export const submitInput = z.strictObject({
-  summary: z.string().trim().min(10, 'Write a short summary for the reviewer (at least 10 characters)').max(5000, 'At most 5000 characters'),
+  summary: text().trim().min(10, 'Write a short summary for the reviewer (at least 10 characters)').max(5000, 'At most 5000 characters'),
   proposals: z
     .array(
       z.strictObject({
@@ -22,7 +23,7 @@ export const submitInput = z.strictObject({
     )
     .min(1, 'Propose a shelf life for each variant'),
   /** Required when checkpoints are still open: why the study ends early. */
-  openCheckpointsReason: z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000).optional(),
+  openCheckpointsReason: text().trim().min(3, 'Give a reason (at least 3 characters)').max(2000).optional(),
 });
 export type SubmitInput = z.infer<typeof submitInput>;
 
@@ -40,16 +41,16 @@ export const decisionInput = z
   .strictObject({
     variantId: z.number().int().positive(),
     outcome: z.enum(DECISION_OUTCOMES),
-    conditionsText: z.string().trim().max(1000, 'At most 1000 characters').optional(),
+    conditionsText: text().trim().max(1000, 'At most 1000 characters').optional(),
     shelfLifeMonths: months('shelf life').nullable().optional(),
     paoMonths: months('period after opening').nullable().optional(),
-    comment: z.string().trim().max(5000, 'At most 5000 characters').optional(),
+    comment: text().trim().max(5000, 'At most 5000 characters').optional(),
     /** Continue testing: the checkpoints to add, per study condition. */
     newCheckpoints: z.array(z.strictObject({ studyConditionId: z.number().int().positive(), offset })).max(40).optional(),
     /** Signing asks for the owner's password again. */
     password: z.string().min(1, 'Enter your password to sign').max(200),
     supersedesId: z.number().int().positive().optional(),
-    supersedeReason: z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000).optional(),
+    supersedeReason: text().trim().min(3, 'Give a reason (at least 3 characters)').max(2000).optional(),
   })
   .superRefine((d, ctx) => {
     const releasing = d.outcome === 'released' || d.outcome === 'released_with_conditions';

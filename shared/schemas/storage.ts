@@ -4,6 +4,7 @@
  * same messages.
  */
 import { z } from 'zod';
+import { dateTimeInRange, DATE_RANGE_MESSAGE, text } from './common';
 import { CONDITION_KINDS, LIGHT_SOURCES, type ConditionKind, type LightSource } from '../domain';
 import { DEFAULT_RH_TOLERANCE, DEFAULT_TOLERANCE_C } from '../compute/storage';
 
@@ -27,11 +28,10 @@ const temperature = (required: string) =>
     .max(MAX_STORAGE_C, `At most ${MAX_STORAGE_C} °C`);
 
 const requiredText = (max: number, empty: string) =>
-  z.string({ error: empty }).trim().min(1, empty).max(max, `At most ${max} characters`);
+  text(empty).trim().min(1, empty).max(max, `At most ${max} characters`);
 
 const optionalText = (max: number) =>
-  z
-    .string({ error: 'Enter text' })
+  text()
     .trim()
     .max(max, `At most ${max} characters`)
     .transform((s) => (s === '' ? null : s))
@@ -40,7 +40,7 @@ const optionalText = (max: number) =>
 
 const common = {
   name: requiredText(120, 'Enter a name, e.g. "45 °C oven"'),
-  location: z.string({ error: 'Enter text' }).trim().max(120, 'At most 120 characters').optional().default(''),
+  location: text().trim().max(120, 'At most 120 characters').optional().default(''),
   isControl: z.boolean({ error: 'Yes or no' }).optional().default(false),
   preset: optionalText(80),
   notes: optionalText(2000),
@@ -121,9 +121,10 @@ export const chamberLogUploadFields = z.strictObject({
 export type ChamberLogUploadFields = z.infer<typeof chamberLogUploadFields>;
 
 /** Query of the period routes: ISO 8601 instants, or lab-local "YYYY-MM-DDTHH:mm" without offset. */
+const periodBound = text().max(40, 'At most 40 characters').refine(dateTimeInRange, DATE_RANGE_MESSAGE);
 export const periodQuery = z.strictObject({
-  from: z.string().max(40).optional(),
-  to: z.string().max(40).optional(),
+  from: periodBound.optional(),
+  to: periodBound.optional(),
   resolution: z.enum(['full', 'chart'], { error: 'full or chart' }).optional(),
 });
 

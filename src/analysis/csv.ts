@@ -1,22 +1,14 @@
 /**
- * CSV text for a chart's data, built in the browser (RFC 4180 quoting, CRLF line ends, a UTF-8
- * byte-order mark so spreadsheet programs read °C and ΔE correctly). Text cells that a
- * spreadsheet would run as a formula (=, +, -, @ first) get a leading apostrophe; numbers are
- * written as plain numbers with a dot. Pure; the download itself is in the component.
+ * CSV text for a chart's data, built in the browser: the shared cell writer (`@shared/csv`:
+ * RFC 4180 quoting, numbers plain, text formulas defused), CRLF line ends and a UTF-8
+ * byte-order mark so spreadsheet programs read °C and ΔE correctly. Pure; the download
+ * itself is in the component.
  */
+import { csvCell } from '@shared/csv';
 
 export type CsvCell = string | number | boolean | null | undefined;
 
-const FORMULA = /^[=+\-@\t\r]/;
-
-function cell(v: CsvCell): string {
-  if (v === null || v === undefined) return '';
-  if (typeof v === 'number') return Number.isFinite(v) ? String(Number(v.toPrecision(15))) : '';
-  if (typeof v === 'boolean') return v ? 'true' : 'false';
-  let s = v;
-  if (FORMULA.test(s)) s = `'${s}`;
-  return /[",\r\n;]/.test(s) || s !== s.trim() ? `"${s.replace(/"/g, '""')}"` : s;
-}
+const cell = (v: CsvCell): string => csvCell(v);
 
 /** The CSV text of a header row and data rows. */
 export function toCsv(header: readonly string[], rows: readonly (readonly CsvCell[])[]): string {

@@ -14,8 +14,8 @@ import { loadConfig, type Config } from '../../server/config';
 import { auditLog, invitations, mailOutbox, passwordResets, users } from '../../server/db/schema';
 import { errorHandler } from '../../server/http/errors';
 import { createLogger } from '../../server/log';
+import { readCapturedMail } from '../../server/mail/fake-smtp';
 import { closeMailerFor, createMailer, mailerFor } from '../../server/mail/mailer';
-import { parseMail } from '../../server/mail/mime';
 import { accountRoutes, accountWorkSettled, RESET_MAX_PER_HOUR } from '../../server/routes/account';
 import { createTestApp, DEMO, DEMO_PASSWORD, type Client, type TestApp } from '../helpers/app';
 
@@ -393,12 +393,13 @@ describe('the Outbox', () => {
     expect(m.html).toBe('<p>Farbe: ΔE<sub>00</sub> = 1,8</p>');
   });
 
-  it('parses what other senders write too (base64 parts, folded encoded words)', () => {
+  it('reads what other senders write too (base64 parts, folded encoded words), with mailparser', async () => {
     const raw = Buffer.from(
       [
         'Subject: =?UTF-8?B?U3RhYmlsaXTDpHQ=?=',
         ' =?UTF-8?Q?_Woche_4?=',
         'To: a@example.com',
+        'X-Keepwell-Lab: 7',
         'Content-Type: multipart/alternative; boundary="xyz"',
         '',
         '--xyz',
@@ -415,9 +416,24 @@ describe('the Outbox', () => {
         '',
       ].join('\r\n'),
     );
-    const m = parseMail(raw);
+    const m = await readCapturedMail(raw);
     expect(m.subject).toBe('Stabilität Woche 4');
+    expect(m.to).toBe('a@example.com');
+    expect(m.labHeader).toBe('7');
     expect(m.text).toBe('Grüße aus dem Labor');
     expect(m.html).toBe('<p>Grüße</p>');
+  });
+
+  it('keeps "no plain-text part" and "no HTML part" apart: nothing is made from the other part', async () => {
+    const htmlOnly = await readCapturedMail(
+      Buffer.from(['Subject: h', 'To: a@example.com', 'Content-Type: text/html; charset=utf-8', '', '<p>Only <b>HTML</b></p>', ''].join('\r\n')),
+    );
+    expect(htmlOnly.text).toBeNull();
+    expect(htmlOnly.html).toContain('<p>Only <b>HTML</b></p>');
+    const textOnly = await readCapturedMail(
+      Buffer.from(['Subject: t', 'To: a@example.com', 'Content-Type: text/plain; charset=utf-8', '', 'See https://example.com/x', ''].join('\r\n')),
+    );
+    expect(textOnly.html).toBeNull();
+    expect(textOnly.text).toContain('See https://example.com/x');
   });
 });

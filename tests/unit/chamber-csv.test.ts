@@ -265,6 +265,37 @@ describe('reading a log', () => {
   }, 30_000);
 });
 
+describe('years, preambles and quote marks', () => {
+  it('refuses years outside 1900..2199 (Date.UTC would read 0001 as 1901; 10000 does not fit the database)', () => {
+    expect(readTimestamp('0001-03-25 14:00', 'DMY')).toMatch(/outside the years 1900 to 2199/);
+    expect(readTimestamp('25/03/0001 14:00', 'DMY')).toMatch(/outside the years 1900 to 2199/);
+    expect(readTimestamp('1899-12-31 23:59', 'DMY')).toMatch(/outside the years 1900 to 2199/);
+    expect(readTimestamp('2200-01-01 00:00', 'DMY')).toMatch(/outside the years 1900 to 2199/);
+    expect(readTimestamp('1900-01-01 00:00', 'DMY')).toEqual({ ms: Date.UTC(1900, 0, 1), zoned: true });
+    expect(readTimestamp('2199-12-31 23:59Z', 'DMY')).toEqual({ ms: Date.UTC(2199, 11, 31, 23, 59), zoned: false });
+  });
+
+  it('skips a preamble with quote marks, whatever the line breaks and however the bytes are split', async () => {
+    for (const nl of ['\n', '\r\n', '\r']) {
+      const text = ['Logger "EL-USB-2" export', 'Serial: 12"34', 'Title,"unclosed', 'Timestamp,Temp (°C)', '2026-03-25T14:00:00Z,21.5', '2026-03-25T14:05:00Z,21.6', ''].join(nl);
+      for (const chunk of [1, 2, 3, 7, 65536]) {
+        const rows = await readAll(text, { chunk });
+        expect(rows.map((r) => [r.line, r.tempC]), `${JSON.stringify(nl)} in chunks of ${chunk}`).toEqual([
+          [5, 21.5],
+          [6, 21.6],
+        ]);
+      }
+    }
+  });
+
+  it('names the line of a quote mark in a reading, counted from the top of the file', async () => {
+    const problem = await problemOf('Exported by logger\nTimestamp,Temp (°C)\n2026-03-25T14:00:00Z,21.5\n2026-03-25T14:05:00Z,2"1.6\n');
+    expect(problem.message).toBe('line 4: a quote mark in the middle of a field');
+    const opening = await problemOf('Exported by logger\nTimestamp,Temp (°C)\n2026-03-25T14:00:00Z,21.5\n2026-03-25T14:05:00Z,x"y\n');
+    expect(opening.message).toMatch(/^line 4: a quote mark/);
+  });
+});
+
 describe('zoned time helpers', () => {
   it('formats and parses period bounds in the lab zone', () => {
     expect(formatWallClock(Date.UTC(2026, 6, 1, 10), 'Europe/Berlin')).toBe('2026-07-01 12:00');

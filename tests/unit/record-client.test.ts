@@ -11,7 +11,7 @@ import { effectScope, nextTick } from 'vue';
 import { flushPromises, mount } from '@vue/test-utils';
 import { createPinia, setActivePinia } from 'pinia';
 import type { Attribute, PlanBatch, StudyCheckpoint, StudySample } from '../../shared/schemas/studies';
-import type { ImportPreviewRow, PhotoView } from '../../shared/schemas/records';
+import type { ImportPreview, ImportPreviewRow, PhotoView } from '../../shared/schemas/records';
 import { SEPARATION_SCALE } from '../../shared/attributes-starter';
 import { changeLines, compact, whatText, auditTime } from '../../src/components/record/auditText';
 import {
@@ -208,6 +208,7 @@ describe('photo strip', () => {
     id,
     url: `/api/photos/${id}`,
     thumbUrl: `/api/photos/${id}/thumb`,
+    originalUrl: `/api/photos/${id}/original`,
     width: 640,
     height: 480,
     caption: null,
@@ -260,7 +261,7 @@ describe('import preview', () => {
     evaluation: error ? null : { verdict: 'pass', message: 'pH 5.4 is 0.1 from day-0 5.3; allowed ±0.5' },
     error,
   });
-  let answers: { rows: ImportPreviewRow[]; errorCount: number }[] = [];
+  let answers: ({ rows: ImportPreviewRow[]; errorCount: number } & Partial<ImportPreview>)[] = [];
 
   beforeEach(() => {
     setActivePinia(createPinia());
@@ -295,6 +296,37 @@ describe('import preview', () => {
     expect(w.find('tr.has-error').exists()).toBe(false);
     expect(w.find('[data-testid="import-all"]').attributes('disabled')).toBeUndefined();
     expect(w.find('[data-testid="import-summary"]').text()).toContain('all ready');
+    w.unmount();
+  }, MOUNT_TIMEOUT);
+
+  it('shows the counts of a file longer than the preview, and the problems below the lines shown', async () => {
+    // The server answers the first 50 lines, the counts and the first 200 problems (tests/api/bad-input.test.ts).
+    const shown = Array.from({ length: 50 }, (_, i) => row(i + 2, null));
+    answers = [
+      {
+        rows: shown,
+        totalRows: 169_000,
+        okRows: 168_700,
+        errorCount: 300,
+        errors: [
+          { line: 900, message: 'Line 900: "abc" is not a valid pH value' },
+          { line: 901, message: 'Line 901: no sample ZZZZZZ in this study' },
+        ],
+        moreErrors: 298,
+      },
+    ];
+    const w = mount(ImportReadings, { props: { studyId: 5 }, attachTo: document.body });
+    await choose(w);
+    const summary = w.find('[data-testid="import-summary"]').text();
+    expect(summary).toContain('169,000 lines');
+    expect(w.find('[data-testid="import-ok"]').text()).toContain('168,700 ready');
+    expect(w.find('[data-testid="import-bad"]').text()).toContain('300 with a problem');
+    expect(w.find('[data-testid="import-shown"]').text()).toContain('first 50 of 169,000 lines');
+    expect(w.findAll('[data-testid="import-row"]')).toHaveLength(50);
+    const more = w.find('[data-testid="import-more-problems"]').text();
+    expect(more).toContain('Line 900: "abc" is not a valid pH value');
+    expect(more).toContain('298 more lines with a problem');
+    expect(w.find('[data-testid="import-all"]').attributes('disabled')).toBeDefined();
     w.unmount();
   }, MOUNT_TIMEOUT);
 
