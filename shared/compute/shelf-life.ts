@@ -69,9 +69,18 @@ export interface ShelfLifeOptions {
   /** Overall confidence, default 0.95. Must lie in [0.5, 1). */
   confidence?: number;
   sided?: Sidedness;
-  /** Search horizon in months, default 60. */
+  /**
+   * Search horizon in months. Default: as far as the data and the extrapolation rule allow,
+   * max(60, 2 × the last time with data) (ICH Q1E never extrapolates beyond 2X; the cap itself is
+   * applied afterwards, apart from the search, see extrapolation.ts).
+   */
   maxMonths?: number;
   limitRounding?: LimitRounding;
+}
+
+/** The default search horizon for data reaching `tMax` months: max(60, 2 × tMax). */
+export function searchHorizon(tMax: number): number {
+  return Math.max(DEFAULT_MAX_MONTHS, Number.isFinite(tMax) ? 2 * tMax : 0);
 }
 
 export type ShelfLifeStatus =
@@ -94,6 +103,10 @@ export interface ShelfLifeResult {
   tValue: number | null;
   /** The mean line the bound was put on, or null. */
   line: MeanLine | null;
+  /** The search horizon used, months ("not reached within N months"). */
+  horizonMonths: number | null;
+  /** Something a reader should check, e.g. results lying exactly on a line. */
+  warning?: string;
 }
 
 /** Default search horizon in months. */
@@ -114,12 +127,16 @@ export function shelfLifeDataProblem(points: readonly TimePoint[]): string | nul
     return 'some results or times are missing or not finite numbers';
   }
   const n = points.length;
-  if (n < 3) {
-    return `needs at least 3 time points at 2 or more times; have ${n}, need ${3 - n} more`;
-  }
+  if (n === 0) return 'no results';
   const times = new Set(points.map((p) => p.t));
+  // Results at one time cannot show a trend, however many there are: they need a second time, not "more".
   if (times.size < 2) {
-    return `all ${n} results are at one time (${points[0].t} months); needs results at 2 or more times`;
+    return n === 1
+      ? `one result (at ${points[0].t} months); needs results at 2 or more times and at least 3 in all`
+      : `all ${n} results are at one time (${points[0].t} months); needs results at 2 or more times`;
+  }
+  if (n < 3) {
+    return `${n} results at ${times.size} times fix a line exactly and leave nothing to estimate its spread; needs at least 3 results`;
   }
   return null;
 }
@@ -134,9 +151,9 @@ interface ResolvedLimits {
   maxMonths: number;
 }
 
-function resolve(limit: AcceptanceLimit, opts: ShelfLifeOptions): ResolvedLimits | string {
+function resolve(limit: AcceptanceLimit, opts: ShelfLifeOptions, tMax = 0): ResolvedLimits | string {
   const confidence = opts.confidence ?? 0.95;
-  const maxMonths = opts.maxMonths ?? DEFAULT_MAX_MONTHS;
+  const maxMonths = opts.maxMonths ?? searchHorizon(tMax);
   const sided = opts.sided ?? 'auto';
   const rounding = opts.limitRounding ?? 'none';
   const lower = limit.lower ?? null;
@@ -169,7 +186,7 @@ function resolve(limit: AcceptanceLimit, opts: ShelfLifeOptions): ResolvedLimits
 }
 
 function emptyResult(status: ShelfLifeStatus, message: string, line: MeanLine | null = null): ShelfLifeResult {
-  return { months: null, status, message, governingSide: null, levelPerSide: null, tValue: null, line };
+  return { months: null, status, message, governingSide: null, levelPerSide: null, tValue: null, line, horizonMonths: null };
 }
 
 interface SideCrossing {
@@ -180,30 +197,41 @@ interface SideCrossing {
 }
 
 /**
- * Earliest t in [0, maxMonths] where the bound meets the effective limit.
- * The margin (lower bound - limit, or limit - upper bound) is concave in t, so
- * once positive at 0 it changes sign at most once on [0, ∞): bisection on
- * [0, maxMonths] finds that crossing to about 1e-10 months.
+ * Earliest t in [0, maxMonths] where the bound leaves the effective limit. Limits are inclusive, as
+ * in the recording criteria (shared/compute/criteria.ts): a bound exactly on the limit is still
+ * inside; with `to_limit_decimals` an upper bound rounding half up onto the next digit is outside
+ * (bound ≥ limit + half a unit), a lower one only below limit - half a unit.
+ * The margin (lower bound - limit, or limit - upper bound) is concave in t, so once inside at 0 it
+ * changes sign at most once on [0, ∞): bisection on [0, maxMonths] finds that crossing to about
+ * 1e-10 months.
  */
-function crossing(line: MeanLine, t: number, side: 'lower' | 'upper', limitEff: number, maxMonths: number): SideCrossing {
+function crossing(line: MeanLine, t: number, side: 'lower' | 'upper', limitEff: number, maxMonths: number, halfUpUpper: boolean): SideCrossing {
   const margin = (x: number): number =>
     side === 'lower' ? boundWithT(line, x, t, 'lower') - limitEff : limitEff - boundWithT(line, x, t, 'upper');
-  if (margin(0) <= 0) return { side, months: 0, atStart: true };
-  if (margin(maxMonths) > 0) return { side, months: null, atStart: false };
+  const outside = (m: number) => (side === 'upper' && halfUpUpper ? m <= 0 : m < 0);
+  if (outside(margin(0))) return { side, months: 0, atStart: true };
+  if (!outside(margin(maxMonths))) return { side, months: null, atStart: false };
   let lo = 0;
   let hi = maxMonths;
   for (let i = 0; i < 200 && hi - lo > 1e-10; i += 1) {
     const mid = (lo + hi) / 2;
-    if (margin(mid) > 0) lo = mid;
+    if (!outside(margin(mid))) lo = mid;
     else hi = mid;
   }
   return { side, months: (lo + hi) / 2, atStart: false };
 }
 
+/** A number as used, without binary noise (4.985, not 4.99 nor 4.984999999999999). */
+export function limitValueText(x: number): string {
+  return String(Math.round(x * 1e10) / 1e10);
+}
+
 function limitText(r: ResolvedLimits, side: 'lower' | 'upper', limit: AcceptanceLimit): string {
   const value = side === 'lower' ? r.lower : r.upper;
+  // The limit as compared, at the precision used: its written decimals (95.0), or every digit it has
+  // when it has more (a limit computed from a mean, 4.985, is never shown as 4.99).
   const d = limit.decimals;
-  const shown = value === null ? '' : d != null ? value.toFixed(d) : String(value);
+  const shown = value === null ? '' : d != null && Number(value.toFixed(d)) === value ? value.toFixed(d) : limitValueText(value);
   const rounded =
     (r.lowerEff !== r.lower || r.upperEff !== r.upper) ? ' (bound rounded to the limit\'s decimals first)' : '';
   return `${side} limit ${shown}${rounded}`;
@@ -221,9 +249,10 @@ function isLine(x: MeanLine | readonly TimePoint[]): x is MeanLine {
 export function shelfLifeSingle(
   data: MeanLine | readonly TimePoint[],
   limit: AcceptanceLimit,
-  opts: ShelfLifeOptions = {},
+  opts: ShelfLifeOptions & { /** For a given line: the last time with data (sets the default horizon). */ dataTMax?: number } = {},
 ): ShelfLifeResult {
-  const r = resolve(limit, opts);
+  const tMax = isLine(data) ? (opts.dataTMax ?? data.xMean) : Math.max(0, ...data.map((p) => p.t).filter(Number.isFinite));
+  const r = resolve(limit, opts, tMax);
   if (typeof r === 'string') return emptyResult('invalid_input', r);
   let line: MeanLine;
   if (isLine(data)) {
@@ -251,12 +280,18 @@ export function shelfLifeSingle(
   const tValue = tQuantile(r.levelPerSide, line.df);
   if (tValue === null) return emptyResult('invalid_input', 'the t quantile could not be computed', line);
 
+  const halfUp = (opts.limitRounding ?? 'none') === 'to_limit_decimals';
   const sides: SideCrossing[] = [];
-  if (r.lowerEff !== null) sides.push(crossing(line, tValue, 'lower', r.lowerEff, r.maxMonths));
-  if (r.upperEff !== null) sides.push(crossing(line, tValue, 'upper', r.upperEff, r.maxMonths));
+  if (r.lowerEff !== null) sides.push(crossing(line, tValue, 'lower', r.lowerEff, r.maxMonths, halfUp));
+  if (r.upperEff !== null) sides.push(crossing(line, tValue, 'upper', r.upperEff, r.maxMonths, halfUp));
   const twoSidedNote = r.levelPerSide > (opts.confidence ?? 0.95) ? ` (two-sided ${+((opts.confidence ?? 0.95) * 100).toFixed(2)} %)` : '';
   const pct = `${+(r.levelPerSide * 100).toFixed(2)} %${twoSidedNote}`;
-  const base = { levelPerSide: r.levelPerSide, tValue, line };
+  // Results exactly on a line: the bound is the line itself, which no real data do; worth a look.
+  const warning =
+    line.residualSD <= 1e-12 * Math.max(1, Math.abs(line.intercept))
+      ? 'The results lie exactly on a straight line (no residual spread), so the confidence bound is the line itself: check the data.'
+      : undefined;
+  const base = { levelPerSide: r.levelPerSide, tValue, line, horizonMonths: r.maxMonths, ...(warning ? { warning } : {}) };
 
   const atStart = sides.find((s) => s.atStart);
   if (atStart) {
@@ -459,9 +494,20 @@ export function poolingDecision(
   );
 }
 
+/**
+ * How batches that can be pooled neither by slope nor by intercept are fitted.
+ * - 'one_model' (default): one model with a separate intercept and slope per batch; every batch's
+ *   bound uses that model's mean square error, Σ SSE_i / (N - 2k), on N - 2k degrees of freedom (k
+ *   batches), as the published statistical programs for ICH Q1E do.
+ * - 'each_alone': each batch fitted alone, with its own residual SD on n_i - 2 df. Not always the
+ *   more cautious of the two: a batch with a small spread gets a narrower bound alone.
+ */
+export type SeparateFit = 'one_model' | 'each_alone';
+
 export interface MultiBatchOptions extends ShelfLifeOptions, PoolingOptions {
   /** Significance level of the pooling tests, default 0.25 (ICH Q1E). */
   alpha?: number;
+  separateFit?: SeparateFit;
 }
 
 /** A line for charting: the mean line of one batch (or of all, batch null). */
@@ -479,6 +525,14 @@ export interface MultiBatchResult {
   months: number | null;
   status: ShelfLifeStatus;
   message: string;
+  /** The search horizon used, months. */
+  horizonMonths: number | null;
+  /** Something to check (e.g. results exactly on a line), from the governing figure. */
+  warning?: string;
+  /** Batches left out of the fit for too little data (their readings stay on the chart), with why. */
+  excluded: { batch: string; reason: string }[];
+  /** With separate lines: the other way of fitting them, shown beside (see SeparateFit). */
+  alternative: { separateFit: SeparateFit; months: number | null; status: ShelfLifeStatus; governingBatch: string | null; message: string } | null;
   model: PoolingDecision['model'];
   pooling: PoolingDecision;
   /** The batch whose figure governs, or null when pooled or when nothing governs. */
@@ -498,37 +552,55 @@ function governing(results: BatchShelfLife[]): BatchShelfLife | null {
 }
 
 /**
- * Shelf life of one attribute from several batches: applies the ICH Q1E
- * poolability decision, then
+ * Shelf life of one attribute from several batches. A batch with results at fewer than 2 times is
+ * left out of the fit, with a note (its readings stay on the chart; it joins as soon as it has a
+ * second time). Then the ICH Q1E poolability decision on the rest, and
  * - pooled: one line through all results;
- * - common slope: one line per batch with the common slope, each bound using the
- *   common-slope model's residual SD with N - k - 1 df; the shortest governs;
- * - separate: each batch fitted alone; the shortest governs (a batch without
- *   enough data makes the whole result insufficient, since it cannot be ruled out).
+ * - common slope: one line per batch with the common slope, each bound using the common-slope
+ *   model's residual SD with N - k - 1 df; the shortest governs;
+ * - separate: one model with a separate intercept and slope per batch, every bound on that model's
+ *   mean square error with N - 2k df (default; see SeparateFit), the shortest governs; the figure of
+ *   each batch fitted alone is given beside it.
  */
 export function shelfLifeMultiBatch(
   points: readonly BatchPoint[],
   limit: AcceptanceLimit,
   opts: MultiBatchOptions = {},
 ): MultiBatchResult {
-  const pooling = poolingDecision(points, opts.alpha ?? 0.25, opts);
-  const sums = batchSums(points);
+  const allSums = batchSums(points);
+  const excluded = allSums
+    .filter((s) => s.times < 2)
+    .map((s) => ({
+      batch: s.batch,
+      reason: `results at one time only (${points.find((p) => p.batch === s.batch)?.t ?? 0} months): left out of the fit until it has results at 2 or more times; its readings stay on the chart`,
+    }));
+  const used = points.filter((p) => !excluded.some((e) => e.batch === p.batch));
+  const tMaxAll = points.length ? Math.max(...points.map((p) => p.t).filter(Number.isFinite)) : 0;
+  const horizonOpts: MultiBatchOptions = { ...opts, maxMonths: opts.maxMonths ?? searchHorizon(tMaxAll) };
+  const pooling = poolingDecision(used, opts.alpha ?? 0.25, opts);
+  const sums = batchSums(used);
   const tMaxOf = (batch: string | null): number => {
     const ts = points.filter((p) => batch === null || p.batch === batch).map((p) => p.t);
     return ts.length ? Math.max(...ts) : 0;
   };
+  const exclusionNote = excluded.length ? ` Left out: batch ${excluded.map((e) => `${e.batch} (${e.reason})`).join('; ')}.` : '';
   const out = (
     batchResults: BatchShelfLife[],
     lines: ChartLine[],
     gov: BatchShelfLife | null,
     governingBatch: string | null,
     fallback: ShelfLifeResult,
+    alternative: MultiBatchResult['alternative'] = null,
   ): MultiBatchResult => {
     const g = gov ?? fallback;
     return {
       months: g.months,
       status: g.status,
-      message: g.message,
+      message: `${g.message}${exclusionNote}`,
+      horizonMonths: g.horizonMonths ?? horizonOpts.maxMonths ?? null,
+      ...(g.warning ? { warning: g.warning } : {}),
+      excluded,
+      alternative,
       model: pooling.model,
       pooling,
       governingBatch,
@@ -538,18 +610,24 @@ export function shelfLifeMultiBatch(
       tValue: g.tValue,
     };
   };
+  if (used.length === 0) {
+    return out([], [], null, null, emptyResult('insufficient_data', points.length ? 'every batch has results at one time only' : 'no results'));
+  }
 
   if (pooling.model === 'pooled') {
-    const r = shelfLifeSingle(points, limit, opts);
+    const r = shelfLifeSingle(used, limit, horizonOpts);
     const batchResults = sums.map((s) => ({ ...r, batch: s.batch }));
     const lines: ChartLine[] = r.line ? [{ ...pickLine(r.line), batch: null, tMax: tMaxOf(null) }] : [];
     return out(batchResults, lines, null, null, { ...r, message: `Pooled: ${r.message}` });
   }
 
+  const alone = (): BatchShelfLife[] => sums.map((s) => ({ ...shelfLifeSingle(used.filter((p) => p.batch === s.batch), limit, horizonOpts), batch: s.batch }));
   let batchResults: BatchShelfLife[];
+  let alternative: MultiBatchResult['alternative'] = null;
+  const separateFit = opts.separateFit ?? 'one_model';
   if (pooling.model === 'common_slope') {
     const k = sums.length;
-    const N = points.length;
+    const N = used.length;
     const sxxW = sums.reduce((s, b) => s + b.sxx, 0);
     const sxyW = sums.reduce((s, b) => s + b.sxy, 0);
     const syyW = sums.reduce((s, b) => s + b.syy, 0);
@@ -557,51 +635,88 @@ export function shelfLifeMultiBatch(
     const df = N - k - 1;
     const residualSD = Math.sqrt(Math.max(0, syyW - (sxyW * sxyW) / sxxW) / df);
     batchResults = sums.map((s) => {
-      const line: MeanLine = {
-        n: s.n,
-        intercept: s.yMean - slope * s.tMean,
-        slope,
-        residualSD,
-        df,
-        xMean: s.tMean,
-        sxx: sxxW,
-      };
-      return { ...shelfLifeSingle(line, limit, opts), batch: s.batch };
+      const line: MeanLine = { n: s.n, intercept: s.yMean - slope * s.tMean, slope, residualSD, df, xMean: s.tMean, sxx: sxxW };
+      return { ...shelfLifeSingle(line, limit, horizonOpts), batch: s.batch };
     });
   } else {
-    batchResults = sums.map((s) => ({
-      ...shelfLifeSingle(
-        points.filter((p) => p.batch === s.batch),
-        limit,
-        opts,
-      ),
-      batch: s.batch,
-    }));
+    const oneModel = (): BatchShelfLife[] => {
+      const k = sums.length;
+      const N = used.length;
+      const df = N - 2 * k;
+      const residualSD = Math.sqrt(sums.reduce((t, b) => t + b.sse, 0) / df);
+      return sums.map((s) => {
+        const slope = s.sxy / s.sxx;
+        const line: MeanLine = { n: s.n, intercept: s.yMean - slope * s.tMean, slope, residualSD, df, xMean: s.tMean, sxx: s.sxx };
+        return { ...shelfLifeSingle(line, limit, horizonOpts), batch: s.batch };
+      });
+    };
+    const canOneModel = used.length - 2 * sums.length >= 1;
+    const summary = (rs: BatchShelfLife[]) => {
+      const g = governing(rs);
+      const lacking = rs.some((r) => r.status === 'insufficient_data' || r.status === 'invalid_input');
+      return {
+        months: lacking ? null : (g?.months ?? null),
+        status: lacking ? ('insufficient_data' as const) : (g?.status ?? rs[0]?.status ?? 'insufficient_data'),
+        governingBatch: lacking ? null : (g?.batch ?? null),
+      };
+    };
+    if (separateFit === 'one_model' && canOneModel) {
+      batchResults = oneModel();
+      const each = alone();
+      const sm = summary(each);
+      alternative = {
+        separateFit: 'each_alone',
+        ...sm,
+        message:
+          sm.status === 'insufficient_data'
+            ? 'Each batch fitted alone: not every batch has enough data for a line of its own.'
+            : `Each batch fitted alone (own residual SD, n - 2 df): ${sm.months != null ? `${fmt(sm.months)} months, batch ${sm.governingBatch} governs` : 'not reached within the horizon'}.`,
+      };
+    } else {
+      batchResults = alone();
+      if (canOneModel) {
+        const sm = summary(oneModel());
+        alternative = {
+          separateFit: 'one_model',
+          ...sm,
+          message: `One model with separate intercepts and slopes (common MSE, N - 2k df): ${sm.months != null ? `${fmt(sm.months)} months, batch ${sm.governingBatch} governs` : 'not reached within the horizon'}.`,
+        };
+      }
+    }
   }
   const lines: ChartLine[] = batchResults
     .filter((r) => r.line !== null)
     .map((r) => ({ ...pickLine(r.line as MeanLine), batch: r.batch, tMax: tMaxOf(r.batch) }));
-  const label = pooling.model === 'common_slope' ? 'Common slope' : 'Batches alone';
+  const label =
+    pooling.model === 'common_slope'
+      ? 'Common slope'
+      : separateFit === 'one_model' && alternative?.separateFit === 'each_alone'
+        ? 'Separate intercepts and slopes in one model'
+        : 'Batches alone';
 
   const invalid = batchResults.find((r) => r.status === 'invalid_input');
-  if (invalid) return out(batchResults, lines, null, null, invalid);
+  if (invalid) return out(batchResults, lines, null, null, invalid, alternative);
   const lacking = batchResults.filter((r) => r.status === 'insufficient_data');
   if (lacking.length > 0 || batchResults.length === 0) {
     const msg =
       batchResults.length === 0
         ? 'no results'
         : `${label}: batch ${lacking.map((r) => `${r.batch} (${r.message})`).join('; ')}; a batch evaluated alone must have enough data`;
-    return out(batchResults, lines, null, null, emptyResult('insufficient_data', msg));
+    return out(batchResults, lines, null, null, emptyResult('insufficient_data', msg), alternative);
   }
   const gov = governing(batchResults);
   if (gov) {
-    return out(batchResults, lines, { ...gov, message: `${label}: batch ${gov.batch} governs. ${gov.message}` }, gov.batch, gov);
+    return out(batchResults, lines, { ...gov, message: `${label}: batch ${gov.batch} governs. ${gov.message}` }, gov.batch, gov, alternative);
   }
   const first = batchResults[0];
-  return out(batchResults, lines, null, null, {
-    ...first,
-    message: `${label}: for every batch, ${first.message.charAt(0).toLowerCase()}${first.message.slice(1)}`,
-  });
+  return out(
+    batchResults,
+    lines,
+    null,
+    null,
+    { ...first, message: `${label}: for every batch, ${first.message.charAt(0).toLowerCase()}${first.message.slice(1)}` },
+    alternative,
+  );
 }
 
 function pickLine(l: MeanLine | LinearFit): MeanLine {

@@ -293,12 +293,14 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
           lowVariability: input.lowVariability ?? false,
           statisticsSupport: true,
         });
-        const regRule = `ICH Q1E Appendix B: ${r.model === 'pooled' ? 'pooled line' : r.model === 'common_slope' ? 'common slope, batch intercepts' : 'batches alone'}, one-sided confidence bound of the mean meets the limit.`;
+        const separate = opts.separateFit === 'each_alone' ? 'each batch fitted alone' : 'separate intercepts and slopes in one model (common mean square error)';
+        const regRule = `ICH Q1E Appendix B: ${r.model === 'pooled' ? 'pooled line' : r.model === 'common_slope' ? 'common slope, batch intercepts' : separate}, one-sided confidence bound of the mean meets the limit.`;
         let figure: number | null = null;
         let capped = false;
         let rule = regRule;
-        let message = r.message;
-        const horizon = opts.maxMonths ?? 60;
+        // The figure's message, then what a reader should see beside it: a warning, the other way of fitting separate lines.
+        let message = [r.message, r.warning, r.alternative ? `Beside it: ${r.alternative.message}` : null].filter(Boolean).join(' ');
+        const horizon = r.horizonMonths ?? opts.maxMonths ?? 60;
         if (r.status === 'fails_at_start') figure = 0;
         else if (r.status === 'crossed' || r.status === 'not_reached') {
           const raw = r.status === 'crossed' ? (r.months as number) : horizon;
@@ -306,7 +308,7 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
             figure = cap.capMonths;
             capped = true;
             rule = `${regRule} Capped: ${cap.rule}`;
-            message = `${r.message} Capped at ${f2(cap.capMonths)} months with ${f2(X)} months of real-time data.`;
+            message = `${message} Capped at ${f2(cap.capMonths)} months with ${f2(X)} months of real-time data.`;
           } else {
             figure = raw;
           }

@@ -39,6 +39,14 @@ export interface Regression {
   lines: ChartLine[];
   levelPerSide: number | null;
   tValue: number | null;
+  /** Search horizon used (months): "not reached within N months". */
+  horizonMonths: number | null;
+  /** Something to check, e.g. results exactly on a line. */
+  warning?: string;
+  /** Batches left out of the fit for too little data, with why (their readings stay on the chart). */
+  excluded: { batch: string; reason: string }[];
+  /** Separate lines: the other way of fitting them, shown beside. */
+  alternative: { separateFit: string; months: number | null; status: string; governingBatch: string | null; message: string } | null;
 }
 
 export interface AnalysisVariant {

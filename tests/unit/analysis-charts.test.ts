@@ -104,6 +104,9 @@ function fixture(): StudyAnalysis {
     lines: [line],
     levelPerSide: 0.975,
     tValue: 2.228,
+    horizonMonths: 60,
+    excluded: [],
+    alternative: null,
   }));
   const suggestion = (months: number | null) => ({
     months,
@@ -363,7 +366,7 @@ describe('line charts of measured attributes', () => {
     broken.series[0].points[1].value = null;
     broken.series[0].points[2].months = NaN;
     broken.limits[0].limit = { lower: null, upper: 6 };
-    broken.regressions[0] = { ...broken.regressions[0], months: null, status: 'insufficient_data', levelPerSide: null, tValue: null };
+    broken.regressions[0] = { ...broken.regressions[0], months: null, status: 'insufficient_data', levelPerSide: null, tValue: null, horizonMonths: 60, excluded: [], alternative: null };
     for (const g of ['condition', 'variant'] as const) {
       for (const p of measuredChart(broken, broken.attributes[0], g, 'x').panels) {
         expect(numbersIn(p.option).every(Number.isFinite), p.title).toBe(true);

@@ -47,14 +47,14 @@ function allFinite(v: unknown): boolean {
  * closed-form quadratic (squaring a + b·t - L = T·s·sqrt(1/n + (t - x̄)²/Sxx)),
  * with the line from simple-statistics and t from jstat directly.
  */
-function closedFormLowerCrossing(xs: number[], ys: number[], level: number, limit: number): number {
+function closedFormLowerCrossing(xs: number[], ys: number[], level: number, limit: number, error?: { s2: number; df: number }): number {
   const { m: b, b: a } = linearRegression(xs.map((x, i) => [x, ys[i]]));
   const n = xs.length;
   const xbar = xs.reduce((s, x) => s + x, 0) / n;
   const sxx = xs.reduce((s, x) => s + (x - xbar) ** 2, 0);
   const sse = xs.reduce((s, x, i) => s + (ys[i] - a - b * x) ** 2, 0);
-  const s2 = sse / (n - 2);
-  const T = jStat.studentt.inv(level, n - 2);
+  const s2 = error?.s2 ?? sse / (n - 2);
+  const T = jStat.studentt.inv(level, error?.df ?? n - 2);
   const c = (T * T * s2) / sxx;
   const d = a - limit;
   const A = b * b - c;
@@ -164,8 +164,8 @@ describe('LeBlond, Griffith & Aubuchon 2011, J Valid Technol 17(3): pooled poten
     expect(Math.abs((one.months as number) - 25.9958)).toBeLessThan(0.00005);
   });
 
-  it('each batch alone when the pooling tests reject (alpha forced to 0.9): the shortest governs', () => {
-    const r = shelfLifeMultiBatch(points, { lower: 95 }, { alpha: 0.9 });
+  it('each batch alone, when asked, when the pooling tests reject (alpha forced to 0.9): the shortest governs', () => {
+    const r = shelfLifeMultiBatch(points, { lower: 95 }, { alpha: 0.9, separateFit: 'each_alone' });
     expect(r.model).toBe('separate');
     expect(r.lines).toHaveLength(3);
     const byBatch = ['b2', 'b5', 'b7'].map((b) => {
@@ -227,11 +227,18 @@ describe('common slope model (constructed data)', () => {
 });
 
 describe('messages instead of guesses', () => {
-  it('asks for more data: 2 points -> need 1 more', () => {
+  it('asks for more data: 2 results at 2 times fix a line but not its spread', () => {
     const r = shelfLifeSingle([{ t: 0, y: 100 }, { t: 3, y: 99 }], { lower: 95 });
     expect(r.status).toBe('insufficient_data');
     expect(r.months).toBeNull();
-    expect(r.message).toBe('needs at least 3 time points at 2 or more times; have 2, need 1 more');
+    expect(r.message).toBe('2 results at 2 times fix a line exactly and leave nothing to estimate its spread; needs at least 3 results');
+  });
+
+  it('two results at the same time need a second time, not "1 more"', () => {
+    const r = shelfLifeSingle([{ t: 0, y: 100 }, { t: 0, y: 99.8 }], { lower: 95 });
+    expect(r.status).toBe('insufficient_data');
+    expect(r.message).toBe('all 2 results are at one time (0 months); needs results at 2 or more times');
+    expect(r.message).not.toMatch(/1 more/);
   });
 
   it('all points at one time', () => {
@@ -269,23 +276,128 @@ describe('messages instead of guesses', () => {
     expect(shelfLifeSingle(pts, { lower: 95 }, { maxMonths: Number.POSITIVE_INFINITY }).status).toBe('invalid_input');
   });
 
-  it('multi-batch: a batch without enough data makes the separate evaluation insufficient', () => {
+  it('multi-batch: a batch with results at one time is left out of the fit with a note, and the rest gives the figure', () => {
     const pts: BatchPoint[] = [
       { batch: 'A', t: 0, y: 100 }, { batch: 'A', t: 3, y: 99 }, { batch: 'A', t: 6, y: 98.2 },
       { batch: 'B', t: 0, y: 100 },
     ];
     const r = shelfLifeMultiBatch(pts, { lower: 95 });
-    expect(r.model).toBe('separate');
-    expect(r.pooling.message).toMatch(/batch B has results at fewer than 2 times/);
-    expect(r.status).toBe('insufficient_data');
-    expect(r.months).toBeNull();
-    expect(r.message).toMatch(/B \(needs at least 3 time points/);
+    expect(r.excluded).toEqual([{ batch: 'B', reason: expect.stringMatching(/one time only \(0 months\): left out of the fit until it has results at 2 or more times; its readings stay on the chart/) }]);
+    expect(r.status).toBe('crossed');
+    // The figure is batch A's alone, as if B were not there (closed form, simple-statistics line, jstat t).
+    const alone = closedFormLowerCrossing([0, 3, 6], [100, 99, 98.2], 0.95, 95);
+    expect(r.months).toBeCloseTo(alone, 6);
+    expect(r.message).toMatch(/Left out: batch B/);
     expect(allFinite(r)).toBe(true);
+    // As soon as B has a second time it is brought in.
+    const later = shelfLifeMultiBatch([...pts, { batch: 'B', t: 3, y: 99.1 }, { batch: 'B', t: 6, y: 98.3 }], { lower: 95 });
+    expect(later.excluded).toEqual([]);
+    expect(later.pooling.batches).toEqual(['A', 'B']);
   });
 
   it('one batch needs no pooling test', () => {
     const d = poolingDecision([{ batch: 'A', t: 0, y: 1 }, { batch: 'A', t: 1, y: 2 }, { batch: 'A', t: 2, y: 2.5 }]);
     expect(d.model).toBe('pooled');
     expect(d.slopes).toBeNull();
+  });
+});
+
+describe('batches that can be pooled neither by slope nor by intercept: one model, separate lines', () => {
+  // Constructed data: three batches with clearly different slopes (-0.10, -0.25, -0.40 %/month) and small noise.
+  const noise = [0.15, -0.2, 0.05, 0.1, -0.12, 0.02, -0.05];
+  const times = [0, 3, 6, 9, 12, 18, 24];
+  const slopes: Record<string, number> = { L1: -0.1, L2: -0.25, L3: -0.4 };
+  const pts: BatchPoint[] = Object.entries(slopes).flatMap(([batch, b], k) =>
+    times.map((t, i) => ({ batch, t, y: 100.5 + b * t + noise[(i + 2 * k) % noise.length] * (k + 1) })),
+  );
+  const limit = { lower: 95 };
+
+  it('by default every batch bound uses the one model\'s mean square error, Σ SSE_i / (N - 2k), on N - 2k df', () => {
+    const r = shelfLifeMultiBatch(pts, limit);
+    expect(r.model).toBe('separate');
+    // By hand: each batch's own least-squares line (simple-statistics), its SSE, the pooled MSE, t from jstat.
+    const N = pts.length;
+    const k = 3;
+    let sse = 0;
+    for (const b of Object.keys(slopes)) {
+      const ps = pts.filter((p) => p.batch === b);
+      const { m, b: a } = linearRegression(ps.map((p) => [p.t, p.y]));
+      sse += ps.reduce((s, p) => s + (p.y - a - m * p.t) ** 2, 0);
+    }
+    const error = { s2: sse / (N - 2 * k), df: N - 2 * k };
+    const byBatch = Object.keys(slopes).map((b) => {
+      const ps = pts.filter((p) => p.batch === b);
+      return closedFormLowerCrossing(ps.map((p) => p.t), ps.map((p) => p.y), 0.95, 95, error);
+    });
+    r.batches.forEach((b, i) => expect(b.months as number).toBeCloseTo(byBatch[i], 6));
+    expect(r.months).toBeCloseTo(Math.min(...byBatch), 6);
+    expect(r.batches[0].line!.df).toBe(N - 2 * k);
+    expect(r.message).toMatch(/^Separate intercepts and slopes in one model: batch L3 governs/);
+  });
+
+  it('shows the fit-alone figure beside it, which is not always the more cautious', () => {
+    const r = shelfLifeMultiBatch(pts, limit);
+    const alone = Object.keys(slopes).map((b) => {
+      const ps = pts.filter((p) => p.batch === b);
+      return closedFormLowerCrossing(ps.map((p) => p.t), ps.map((p) => p.y), 0.95, 95);
+    });
+    expect(r.alternative).toMatchObject({ separateFit: 'each_alone', status: 'crossed' });
+    expect(r.alternative!.months).toBeCloseTo(Math.min(...alone), 6);
+    expect(r.alternative!.message).toMatch(/Each batch fitted alone/);
+    // Batch L1 has the smallest noise: alone, its own small residual SD gives it a narrower bound (a later crossing) than the common MSE.
+    const one = r.batches.find((b) => b.batch === 'L1')!.months as number;
+    expect(alone[0]).toBeGreaterThan(one);
+    // ... while the noisiest batch, L3, is the other way round.
+    expect(alone[2]).toBeLessThan(r.batches.find((b) => b.batch === 'L3')!.months as number);
+  });
+});
+
+describe('studies longer than 60 months', () => {
+  // Constructed: 72 months of data on a line from 100 falling 0.07 %/month, small noise; the bound meets 95 near 69 months.
+  const times = [0, 3, 6, 9, 12, 18, 24, 36, 48, 60, 72];
+  const noise = [0.05, -0.04, 0.03, -0.05, 0.02, 0.04, -0.03, 0.01, -0.02, 0.03, -0.01];
+  const pts = times.map((t, i) => ({ t, y: 100 - 0.07 * t + noise[i] }));
+
+  it('searches as far as the data allow (2 × 72 months), finds the crossing and says so', () => {
+    const r = shelfLifeSingle(pts, { lower: 95 });
+    const expected = closedFormLowerCrossing(times, pts.map((p) => p.y), 0.95, 95);
+    expect(expected).toBeGreaterThan(60);
+    expect(r.status).toBe('crossed');
+    expect(r.months).toBeCloseTo(expected, 6);
+    expect(r.horizonMonths).toBe(144);
+    expect(r.message).not.toMatch(/not reached/);
+  });
+
+  it('says "not reached within N months" only when that is true, with the N searched', () => {
+    const flat = times.map((t, i) => ({ t, y: 100 + noise[i] }));
+    const r = shelfLifeSingle(flat, { lower: 95 });
+    expect(r.status).toBe('not_reached');
+    expect(r.message).toMatch(/not reached within 144 months/);
+    // Short data keep the usual 60-month horizon.
+    expect(shelfLifeSingle(flat.slice(0, 5), { lower: 95 }).message).toMatch(/not reached within 60 months/);
+  });
+});
+
+describe('limits shown are the limits used; one rule for a result on a limit', () => {
+  it('a limit computed from a mean (5.485 - 0.5 = 4.985) is shown as 4.985, not 4.99', () => {
+    const r = shelfLifeSingle([{ t: 0, y: 5.5 }, { t: 3, y: 5.3 }, { t: 6, y: 5.12 }, { t: 9, y: 4.95 }], { lower: 4.985, decimals: 2 });
+    expect(r.message).toMatch(/lower limit 4\.985 /);
+    expect(r.message).not.toMatch(/4\.99/);
+  });
+
+  it('a bound exactly on the limit is inside, as in the recording criteria (limits are inclusive)', () => {
+    // A line with no spread through (0, 95): the bound at t = 0 is 95 exactly, on the lower limit.
+    const r = shelfLifeSingle([{ t: 0, y: 95 }, { t: 3, y: 95 }, { t: 6, y: 95 }], { lower: 95 });
+    expect(r.status).not.toBe('fails_at_start');
+    expect(r.status).toBe('not_reached');
+  });
+
+  it('a perfect line (no residual spread) gives its crossing with a warning to check the data', () => {
+    const r = shelfLifeSingle([{ t: 0, y: 100 }, { t: 6, y: 99 }, { t: 12, y: 98 }], { lower: 95 });
+    expect(r.status).toBe('crossed');
+    expect(r.months).toBeCloseTo(30, 6); // 100 - t/6 = 95 at t = 30, by hand
+    expect(r.warning).toMatch(/exactly on a straight line.*check the data/);
+    const m = shelfLifeMultiBatch([{ batch: 'A', t: 0, y: 100 }, { batch: 'A', t: 6, y: 99 }, { batch: 'A', t: 12, y: 98 }], { lower: 95 });
+    expect(m.warning).toMatch(/check the data/);
   });
 });

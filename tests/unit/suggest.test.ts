@@ -261,11 +261,21 @@ describe('regression branch: LeBlond 2011 potency at real time (data span 0-24 m
     expect(r.months).toBe(6);
   });
 
+  it('a new lot with only its initial reading is left out with a note, and the figure stands (LeBlond data plus a lot at t = 0)', () => {
+    const withNewLot = [...obs, { months: 0, batch: 'new-lot', value: 101.2, passed: true }];
+    const before = suggestShelfLife({ storage: 'room', conditions: [realTime(obs)] });
+    const r = suggestShelfLife({ storage: 'room', conditions: [realTime(withNewLot)] });
+    const reg = r.reasons.find((x) => x.method === 'regression')!;
+    expect(reg.figureMonths).toBeCloseTo(before.reasons.find((x) => x.method === 'regression')!.figureMonths as number, 9);
+    expect(r.months).toBe(before.months);
+    expect(reg.message).toMatch(/Left out: batch new-lot \(results at one time only \(0 months\)/);
+  });
+
   it('too little real-time data gives a reason with a message, not a figure', () => {
     const r = suggestShelfLife({ storageTempC: 25, conditions: [realTime(obs.slice(0, 2)), oven45()] });
     const reg = r.reasons.find((x) => x.method === 'regression')!;
     expect(reg.figureMonths).toBeNull();
-    expect(reg.message).toMatch(/needs at least 3 time points at 2 or more times; have 2, need 1 more/);
+    expect(reg.message).toMatch(/2 results at 2 times fix a line exactly and leave nothing to estimate its spread; needs at least 3 results/);
     expect(r.basis).toBe('projection_only');
     expect(r.months).toBe(11);
   });
