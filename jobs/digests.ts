@@ -4,7 +4,8 @@
  * - Technicians: the checkpoints of studies they are responsible for that are
  *   overdue, due today or due in the next two days, grouped by storage location,
  *   one line per sample linking to its page.
- * - Formulators: running studies whose checkpoints are all closed and wait to be submitted.
+ * - Formulators: running studies whose checkpoints are all closed and wait to be submitted, and the
+ *   out-of-specification results of the studies they own (new since the last digest, or still open).
  * - Owners: studies waiting for their decision.
  */
 import { and, eq, notExists, sql } from 'drizzle-orm';
@@ -13,6 +14,9 @@ import { checkpoints, studies } from '../server/db/schema';
 import { renderMail, type MailBlock, type MailContent } from '../server/mail/templates';
 import { bench } from '../server/services/studies';
 import { reviewQueue } from '../server/services/reviews';
+import { newInvestigationsFor } from '../server/services/oos';
+
+const OOS_STEP_WORDS = { unconfirmed: 'not yet re-measured or confirmed at the bench', remeasured: 're-measured at the bench', confirmed: 'confirmed at the bench' } as const;
 import type { Role } from '../shared/roles';
 
 export interface DigestMember {
@@ -84,6 +88,20 @@ export const buildDigest: BuildDigest = async (db, member, today, ctx) => {
         });
         count += ready.length;
       }
+    }
+    // Out-of-specification results in the studies they own: new since yesterday's digest, or still open.
+    const oos = await newInvestigationsFor(db, member, new Date(Date.now() - 26 * 3_600_000));
+    if (oos.length) {
+      blocks.push({
+        kind: 'list',
+        heading: 'Out-of-specification results in your studies',
+        items: oos.map((i) => ({
+          text: `${i.study.title}: ${i.sampleCode} ${i.condition ?? 'Initial test'} ${i.checkpoint.label}, ${i.attribute.name}`,
+          url: ctx.link(`/studies/${i.study.id}?tab=investigations`),
+          note: i.status === 'open' ? `investigation open (${OOS_STEP_WORDS[i.benchStep]})` : `closed: ${i.conclusion}`,
+        })),
+      });
+      count += oos.length;
     }
     if (member.role === 'owner') {
       const queue = await reviewQueue(db, member.labId);

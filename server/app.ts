@@ -25,6 +25,7 @@ import { studyRoutes } from './routes/studies';
 import { recordRoutes } from './routes/records';
 import { reviewRoutes } from './routes/reviews';
 import { accountRoutes } from './routes/account';
+import { oosRoutes } from './routes/oos';
 
 export const SESSION_COOKIE = 'kw.sid';
 const DIST = fileURLToPath(new URL('../dist', import.meta.url));
@@ -129,6 +130,7 @@ export function createApp(deps: AppDeps) {
   const uploadsDir = resolve(deps.uploadsDir ?? join(config.DATA_DIR, 'uploads'));
   api.use(recordRoutes(db, uploadsDir));
   api.use(reviewRoutes(db, log, uploadsDir));
+  api.use(oosRoutes(db));
   api.use(accountRoutes({ db, config, log }));
   api.use(apiNotFound);
   app.use('/api', api);

@@ -87,10 +87,14 @@ export const CONDITION_ROLE_LABELS: Record<ConditionRole, string> = {
 };
 
 /** open (upcoming, due or overdue by date), done, missed (window passed, with a reason), cancelled (condition ended early or study cancelled). */
+/** The study's one initial test, a condition's pull, or a condition's own day 0 kept from before the initial test. */
+export const CHECKPOINT_KINDS = ['initial', 'pull', 'extra_day0'] as const;
+export type CheckpointKind = (typeof CHECKPOINT_KINDS)[number];
+
 export const CHECKPOINT_STATUSES = ['open', 'done', 'missed', 'cancelled'] as const;
 export type CheckpointStatus = (typeof CHECKPOINT_STATUSES)[number];
 
-export const AMENDMENT_KINDS = ['add_checkpoint', 'end_condition', 'cancel', 'other'] as const;
+export const AMENDMENT_KINDS = ['add_checkpoint', 'end_condition', 'pair_control', 'cancel', 'other'] as const;
 export type AmendmentKind = (typeof AMENDMENT_KINDS)[number];
 
 /** Stored verdict of an observation: the evaluation's verdict, or not done (with a reason). */
@@ -114,3 +118,9 @@ export const SIGNATURE_MEANINGS: Record<DecisionOutcome, string> = {
 };
 /** Ready phrases for release conditions. */
 export const CONDITION_PHRASES = ['Protect from freezing.', 'Store below 25 °C.', 'Keep away from sunlight.'] as const;
+
+/** Out of specification (OOS): what was done at the bench, and how the investigation ended. */
+export const OOS_BENCH_STEPS = ['unconfirmed', 'remeasured', 'confirmed'] as const;
+export type OosBenchStep = (typeof OOS_BENCH_STEPS)[number];
+export const OOS_CONCLUSIONS = ['confirmed', 'invalidated'] as const;
+export type OosConclusion = (typeof OOS_CONCLUSIONS)[number];

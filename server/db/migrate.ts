@@ -4,6 +4,7 @@ import { fileURLToPath } from 'node:url';
 import { migrate } from 'drizzle-orm/mysql2/migrator';
 import type { RowDataPacket } from 'mysql2/promise';
 import { createDb, createPool, type DbTarget, type Pool } from './client';
+import { runDataMigrations } from './data-migrations';
 
 export const MIGRATIONS_FOLDER = fileURLToPath(new URL('./migrations', import.meta.url));
 
@@ -11,7 +12,9 @@ export const MIGRATIONS_FOLDER = fileURLToPath(new URL('./migrations', import.me
 export async function runMigrations(target: DbTarget): Promise<void> {
   const pool = createPool(target, 2);
   try {
-    await migrate(createDb(pool), { migrationsFolder: MIGRATIONS_FOLDER });
+    const db = createDb(pool);
+    await migrate(db, { migrationsFolder: MIGRATIONS_FOLDER });
+    await runDataMigrations(db);
   } finally {
     await pool.end();
   }

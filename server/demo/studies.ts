@@ -10,7 +10,7 @@ import { randomBytes } from 'node:crypto';
 import { mkdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { evaluate, type Criterion } from '../../shared/compute/criteria';
-import { addDays, generateSchedule, localDateInZone, SCHEDULE_TEMPLATES, type Offset } from '../../shared/compute/schedule';
+import { addDays, localDateInZone, SCHEDULE_TEMPLATES, type Offset } from '../../shared/compute/schedule';
 import type { ConditionRole } from '../../shared/domain';
 import type { DbOrTx } from '../db/client';
 import {
@@ -18,9 +18,10 @@ import {
   batches,
   checkpoints,
   decisions,
+  notifications,
   observations,
+  oosInvestigations,
   photos,
-  samples,
   storageConditions,
   studies,
   studyAttributes,
@@ -31,7 +32,7 @@ import {
 } from '../db/schema';
 import { audit } from '../services/audit';
 import { takeSnapshot } from '../services/formulas';
-import { newSampleCode } from '../services/studies';
+import { materializeStudy } from '../services/studies';
 import { studyDataHash } from '../services/reviews';
 import { labelDating } from '../../shared/compute/label';
 import { SIGNATURE_MEANINGS } from '../../shared/domain';
@@ -131,74 +132,57 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
     const [{ id }] = await tx.insert(studyAttributes).values({ labId, studyId, attributeId: attr.id, position, criterion }).$returningId();
     saIds.push({ id, code: a.code, criterion, attr });
   }
-
-  let labelOrder = 0;
-  const photoTargets: { sampleId: number; checkpointId: number; separated: boolean; label: string; code: string; at: Date }[] = [];
+  const scIds: number[] = [];
   for (const [ci, c] of spec.conditions.entries()) {
-    const cond = condRows.find((r) => r.id === c.conditionId)!;
     const offsets = c.offsets ?? SCHEDULE_TEMPLATES[c.template!].offsets;
-    const [{ id: scId }] = await tx
+    const [{ id }] = await tx
       .insert(studyConditions)
       .values({ labId, studyId, conditionId: c.conditionId, role: c.role, position: ci, offsets, template: c.template })
       .$returningId();
-    const cycleHours = cond.kind === 'cycling' && cond.hoursLow != null && cond.hoursHigh != null ? cond.hoursLow + cond.hoursHigh : undefined;
-    const schedule = generateSchedule({ startDate, offsets, cycleHours });
-    const sampleRows: { id: number; batch: (typeof batchRows)[number] }[] = [];
-    for (const b of batchRows.sort((x, y) => x.variantCode.localeCompare(y.variantCode) || x.lotCode.localeCompare(y.lotCode))) {
-      let code = newSampleCode();
-      while ((await tx.select({ id: samples.id }).from(samples).where(and(eq(samples.labId, labId), eq(samples.code, code)))).length) code = newSampleCode();
-      const [{ id }] = await tx
-        .insert(samples)
-        .values({ labId, studyId, batchId: b.id, studyConditionId: scId, code, replicate: 1, labelOrder: ++labelOrder })
-        .$returningId();
-      sampleRows.push({ id, batch: b });
-    }
-    for (const s of schedule) {
-      const leftOpen = spec.leaveOpen?.some((l) => l.condition === ci && l.label === s.label);
-      // Recorded when its due date has come, unless left open on purpose.
-      const recorded = s.dueDate <= today && !leftOpen;
-      const [{ id: cpId }] = await tx
-        .insert(checkpoints)
-        .values({
-          labId,
-          studyId,
-          studyConditionId: scId,
-          offsetUnit: s.offset.unit,
-          offsetN: s.offset.n,
-          label: s.label,
-          dueDate: s.dueDate,
-          windowBefore: s.windowBefore,
-          windowAfter: s.windowAfter,
-          status: recorded ? 'done' : 'open',
-          closedAt: recorded ? new Date(`${s.dueDate}T15:00:00Z`) : null,
-          closedBy: recorded ? people.technician : null,
-        })
-        .$returningId();
-      if (!recorded) continue;
-      const day = Math.round((Date.parse(s.dueDate) - Date.parse(startDate)) / 86_400_000);
-      for (const smp of sampleRows) {
-        const ctx: CellContext = {
-          variantCode: smp.batch.variantCode,
-          lotCode: smp.batch.lotCode,
-          role: c.role,
-          conditionName: cond.name,
-          setpointC: cond.setpointC,
-          offset: s.offset,
-          day,
-          replicate: 1,
-          rand,
-        };
-        const rows = [];
-        for (const sa of saIds) {
-          const v = spec.value(sa.code, ctx);
-          if (v === undefined) continue;
-          const baselineV = spec.value(sa.code, { ...ctx, offset: { unit: 'day', n: 0 }, day: 0, rand: () => 0.5 });
-          const ev = evaluate(sa.criterion, v, typeof baselineV === 'number' ? baselineV : undefined);
-          rows.push({
+    scIds.push(id);
+  }
+
+  // Samples and checkpoints exactly as starting a study makes them: the initial test, the pulls, the paired control readings.
+  const made = await materializeStudy(tx, labId, { id: studyId, startDate, samplesPerCell: 1 });
+
+  const photoTargets: { sampleId: number; checkpointId: number; separated: boolean; label: string; code: string; at: Date }[] = [];
+  const initialValues = new Map<string, Value>();
+  const failing: { observationId: number; sampleId: number; sampleCode: string; checkpointId: number; checkpointLabel: string; studyAttributeId: number; attributeName: string; value: Value; message: string; at: Date; variantCode: string; condition: string }[] = [];
+  for (const cp of made.checkpoints) {
+    const ci = cp.studyConditionId == null ? -1 : scIds.indexOf(cp.studyConditionId);
+    const leftOpen = ci >= 0 && spec.leaveOpen?.some((l) => l.condition === ci && l.label === cp.label);
+    // Recorded when its due date has come, unless left open on purpose.
+    if (cp.dueDate > today || leftOpen) continue;
+    const c = ci >= 0 ? spec.conditions[ci] : null;
+    const cond = c ? condRows.find((r) => r.id === c.conditionId)! : null;
+    const day = Math.round((Date.parse(cp.dueDate) - Date.parse(startDate)) / 86_400_000);
+    for (const smp of made.samples.filter((x) => x.studyConditionId === cp.studyConditionId)) {
+      const batch = batchRows.find((b) => b.id === smp.batchId)!;
+      const ctx: CellContext = {
+        variantCode: batch.variantCode,
+        lotCode: batch.lotCode,
+        // The initial test is read before storage: it is no condition's, and day 0 of every one.
+        role: c?.role ?? 'control',
+        conditionName: cond?.name ?? 'Initial test',
+        setpointC: cond?.setpointC ?? null,
+        offset: cp.offset as Offset,
+        day,
+        replicate: smp.replicate,
+        rand,
+      };
+      const rows = [];
+      for (const sa of saIds) {
+        const v = spec.value(sa.code, ctx);
+        if (v === undefined) continue;
+        if (cp.kind === 'initial') initialValues.set(`${smp.batchId}:${sa.id}`, v);
+        const baseline = cp.kind === 'initial' ? v : initialValues.get(`${smp.batchId}:${sa.id}`);
+        const ev = evaluate(sa.criterion, v, typeof baseline === 'number' ? baseline : undefined, { name: sa.attr.name, unit: sa.attr.unit });
+        rows.push({
+          row: {
             labId,
             studyId,
             sampleId: smp.id,
-            checkpointId: cpId,
+            checkpointId: cp.id,
             studyAttributeId: sa.id,
             valueNum: typeof v === 'number' ? v : null,
             valueText: typeof v === 'string' ? v : null,
@@ -206,16 +190,25 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
             method: sa.code === 'ph' ? { method: 'neat' } : sa.code === 'viscosity' ? { spindle: 'RV-6', speed: 10, temperature: 25 } : null,
             verdict: ev.verdict,
             recordedBy: people.technician,
-            recordedAt: new Date(`${s.dueDate}T10:${String(10 + smp.id % 40).padStart(2, '0')}:00Z`),
-          });
-        }
-        if (rows.length) await tx.insert(observations).values(rows);
-        const sep = rows.find((r) => r.studyAttributeId === saIds.find((x) => x.code === 'separation')?.id);
-        if (c.role === 'accelerated' && (s.label === 'Week 8' || s.label === 'Day 0' || s.label === 'Week 4')) {
-          photoTargets.push({ sampleId: smp.id, checkpointId: cpId, separated: (sep?.valueNum ?? 0) >= 2, label: s.label, code: smp.batch.variantCode, at: new Date(`${s.dueDate}T10:45:00Z`) });
+            recordedAt: new Date(`${cp.dueDate}T10:${String(10 + (smp.id % 40)).padStart(2, '0')}:00Z`),
+          },
+          sa,
+          v,
+          message: ev.message,
+        });
+      }
+      for (const r of rows) {
+        const [{ id }] = await tx.insert(observations).values(r.row).$returningId();
+        if (r.row.verdict === 'fail') {
+          failing.push({ observationId: id, sampleId: smp.id, sampleCode: smp.code, checkpointId: cp.id, checkpointLabel: cp.label, studyAttributeId: r.sa.id, attributeName: r.sa.attr.name, value: r.v, message: r.message, at: r.row.recordedAt, variantCode: batch.variantCode, condition: cond?.name ?? 'Initial test' });
         }
       }
+      const sep = rows.find((r) => r.sa.code === 'separation');
+      if (cp.kind === 'initial' || (c?.role === 'accelerated' && (cp.label === 'Week 8' || cp.label === 'Week 4'))) {
+        photoTargets.push({ sampleId: smp.id, checkpointId: cp.id, separated: Number(sep?.v ?? 0) >= 2, label: cp.label, code: batch.variantCode, at: new Date(`${cp.dueDate}T10:45:00Z`) });
+      }
     }
+    await tx.update(checkpoints).set({ status: 'done', closedAt: new Date(`${cp.dueDate}T15:00:00Z`), closedBy: people.technician }).where(eq(checkpoints.id, cp.id));
   }
   await audit(tx, {
     labId,
@@ -226,7 +219,81 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
     newValue: { demo: true, title: spec.title },
     reason: 'Demo data (invented)',
   });
-  return { studyId, photoTargets };
+  return { studyId, photoTargets, failing, startDate };
+}
+
+/**
+ * Every failing demo reading has its out-of-specification investigation, as the app would have opened
+ * it. At 45 °C variant A's week-8 separation and appearance were confirmed at the bench and closed by
+ * the formulator (the emulsion really split); its viscosity was re-measured and waits for her.
+ */
+async function demoInvestigations(tx: DbOrTx, labId: number, people: DemoPeople, study: Awaited<ReturnType<typeof createDemoStudy>>) {
+  const [meta] = await tx.select({ title: studies.title }).from(studies).where(eq(studies.id, study.studyId));
+  for (const f of study.failing) {
+    const open = /viscosity/i.test(f.attributeName);
+    const later = (hours: number) => new Date(f.at.getTime() + hours * 3_600_000);
+    const [{ id }] = await tx
+      .insert(oosInvestigations)
+      .values({
+        labId,
+        studyId: study.studyId,
+        observationId: f.observationId,
+        sampleId: f.sampleId,
+        checkpointId: f.checkpointId,
+        studyAttributeId: f.studyAttributeId,
+        failedValue: f.value,
+        failedMessage: f.message.slice(0, 500),
+        openedBy: people.technician,
+        openedAt: f.at,
+        ...(open
+          ? {
+              benchStep: 'remeasured' as const,
+              remeasureValue: typeof f.value === 'number' ? f.value + 140 : f.value,
+              remeasureVerdict: 'fail' as const,
+              remeasuredBy: people.technician,
+              remeasuredAt: later(0.3),
+              benchComment: 'Re-measured with a fresh spindle after 10 min at 25 °C: still low.',
+            }
+          : {
+              benchStep: 'confirmed' as const,
+              benchComment: 'Checked the jar again: oil layer clearly visible, as recorded.',
+              confirmedBy: people.technician,
+              confirmedAt: later(0.2),
+              status: 'closed' as const,
+              checks: {
+                instrument: 'Not an instrument reading (visual); the lamp and the viewing board were as usual.',
+                method: 'Graded against the lab scale photos, as at every pull.',
+                sample: 'Right jar (code on the lid and label), not disturbed before grading.',
+                calculation: 'None (a grade).',
+              },
+              conclusion: 'confirmed' as const,
+              conclusionReason: 'A real result: variant A separates at 45 °C by week 8; B, with xanthan, holds.',
+              closedBy: people.formulator,
+              closedAt: later(26),
+            }),
+      })
+      .$returningId();
+    await audit(tx, {
+      labId,
+      userId: null,
+      action: 'import',
+      entity: 'oos_investigation',
+      entityId: id,
+      studyId: study.studyId,
+      newValue: { demo: true, sample: f.sampleCode, checkpoint: f.checkpointLabel, attribute: f.attributeName, value: f.value, open },
+      reason: 'Demo data (invented)',
+    });
+    await tx.insert(notifications).values({
+      labId,
+      userId: people.formulator,
+      kind: 'oos',
+      text: `Out of specification in ${meta.title}: ${f.sampleCode} ${f.checkpointLabel}, ${f.message}`.slice(0, 500),
+      link: `/studies/${study.studyId}?tab=investigations`,
+      studyId: study.studyId,
+      createdAt: f.at,
+      readAt: open ? null : later(25),
+    });
+  }
 }
 
 /** A generated picture of an open jar seen from above: cream, or cream with an oil layer. */
@@ -345,6 +412,8 @@ export async function seedStudies(
     now,
   );
 
+  await demoInvestigations(tx, labId, people, s1);
+
   await createDemoStudy(
     tx,
     labId,
@@ -356,7 +425,7 @@ export async function seedStudies(
       batchIds: [oldLot],
       startDaysAgo: 380,
       conditions: [
-        { conditionId: conditions['fridge-4'], role: 'control', template: null, offsets: [{ unit: 'month', n: 0 }, { unit: 'month', n: 6 }, { unit: 'month', n: 12 }, { unit: 'month', n: 24 }] },
+        { conditionId: conditions['fridge-4'], role: 'control', template: null, offsets: [{ unit: 'month', n: 6 }, { unit: 'month', n: 12 }, { unit: 'month', n: 24 }] },
         { conditionId: conditions['ich-25-60'], role: 'real_time', template: 'real-time-36m' },
       ],
       attributes: [{ code: 'appearance' }, { code: 'odor' }, { code: 'separation' }, { code: 'ph' }],

@@ -3,16 +3,18 @@ import { and, desc, eq, gte, lt, sql } from 'drizzle-orm';
 import { Router, type RequestHandler } from 'express';
 import multer from 'multer';
 import { addDays } from '../../shared/compute/schedule';
+import { csvLine } from '../../shared/csv';
 import { auditQuery, correctionInput, recordInput, voidInput, type AuditRow } from '../../shared/schemas/records';
 import { requireMember, requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db } from '../db/client';
 import { auditLog, checkpoints, photos, samples, users } from '../db/schema';
 import { HttpError, idParam, notFound, parse } from '../http/errors';
-import { planImport, runImport } from '../services/import';
-import { checkImages, PHOTO_LIMITS, photosFor, savePhotos } from '../services/photos';
-import { checkpointOpen, correctObservation, observationHistory, recordObservations, recordSheet, voidObservation, type Recorder } from '../services/records';
+import { planImport, previewOf, runImport } from '../services/import';
+import { attachmentHeader, checkImages, ensureDisplayCopy, PHOTO_LIMITS, photosFor, savePhotos } from '../services/photos';
+import { checkpointOpen, correctObservation, observationHistory, recordObservations, recordSheet, sampleAtCheckpoint, voidObservation, type Recorder } from '../services/records';
 import { todayIn } from '../services/studies';
+import { studyExists } from '../services/study/detail';
 
 const recorder = (u: Express.User): Recorder => ({ id: u.id, labId: u.labId, role: u.role });
 
@@ -27,8 +29,13 @@ function upload(field: string, opts: { maxFiles: number; fileSize: number }): Re
       if (!err) return next();
       if (err instanceof multer.MulterError) {
         const tooBig = err.code === 'LIMIT_FILE_SIZE';
-        const tooMany = err.code === 'LIMIT_FILE_COUNT' || err.code === 'LIMIT_UNEXPECTED_FILE' || err.code === 'LIMIT_PART_COUNT';
+        const tooMany = err.code === 'LIMIT_FILE_COUNT' || err.code === 'LIMIT_PART_COUNT';
         if (tooBig) return next(new HttpError(413, 'too_large', `Each file may be at most ${opts.fileSize / 1024 / 1024} MB`, { [field]: 'File too large' }));
+        // A file in another field, or more files than the field takes (multer names both the same).
+        if (err.code === 'LIMIT_UNEXPECTED_FILE' && err.field !== field) {
+          return next(new HttpError(400, 'validation', `Send the file(s) in the field "${field}", not "${String(err.field ?? '').slice(0, 60)}"`, { [field]: `Expected the field "${field}"` }));
+        }
+        if (err.code === 'LIMIT_UNEXPECTED_FILE') return next(new HttpError(413, 'too_large', `At most ${opts.maxFiles} file(s) per upload, in the "${field}" field`, { [field]: 'Too many files' }));
         if (tooMany) return next(new HttpError(413, 'too_large', `At most ${opts.maxFiles} file(s) per upload, in the "${field}" field`, { [field]: 'Too many files' }));
         return next(new HttpError(400, 'bad_request', `Upload refused: ${err.message}`, { [field]: err.message }));
       }
@@ -93,8 +100,8 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
       const [cp] = await db
         .select({ cp: checkpoints, status: sql<string>`(SELECT status FROM studies WHERE id = ${checkpoints.studyId})` })
         .from(checkpoints)
-        .where(and(eq(checkpoints.labId, me.labId), eq(checkpoints.id, checkpointId), eq(checkpoints.studyConditionId, sample.studyConditionId)));
-      if (!cp) throw notFound('This sample has no such checkpoint');
+        .where(and(eq(checkpoints.labId, me.labId), eq(checkpoints.id, checkpointId)));
+      if (!cp || !(await sampleAtCheckpoint(db, sample, cp.cp))) throw notFound('This sample has no such checkpoint');
       const closed = checkpointOpen({ status: cp.status }, cp.cp, todayIn(me.lab.timeZone), me.role !== 'technician');
       if (closed) throw new HttpError(409, 'conflict', closed);
       const files = (req.files as Express.Multer.File[] | undefined) ?? [];
@@ -105,18 +112,32 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
     },
   );
 
-  const servePhoto = (thumb: boolean): RequestHandler => async (req, res) => {
+  /**
+   * The display copy (made now for photos stored before display copies existed), the thumbnail,
+   * or the original as a download. Never shown inline from the original: it may carry EXIF/GPS.
+   */
+  const servePhoto = (which: 'display' | 'thumb' | 'original'): RequestHandler => async (req, res) => {
     const me = member(req);
     const [p] = await db.select().from(photos).where(and(eq(photos.labId, me.labId), eq(photos.id, idParam(req.params.id))));
     if (!p) throw notFound('No such photo in your lab');
+    let file = which === 'thumb' ? p.thumbName : p.storedName;
+    if (which === 'display') {
+      try {
+        file = await ensureDisplayCopy(photoDir, p.storedName);
+      } catch (err) {
+        if ((err as NodeJS.ErrnoException).code === 'ENOENT') throw notFound('The photo file is missing from storage');
+        throw err;
+      }
+    }
+    const type = which === 'original' ? p.mime : 'image/webp';
     res.set({
-      'Content-Type': thumb ? 'image/webp' : p.mime,
-      'Content-Disposition': 'inline',
+      'Content-Type': type,
+      'Content-Disposition': which === 'original' ? attachmentHeader(p.originalName, p.mime) : 'inline',
       'Content-Security-Policy': "default-src 'none'; sandbox",
       'Cache-Control': 'private, max-age=86400',
     });
     // `root` so that only the stored name is checked for dot segments: the data folder itself is '.data' by default.
-    res.sendFile(thumb ? p.thumbName : p.storedName, { root: photoDir, headers: { 'Content-Type': thumb ? 'image/webp' : p.mime } }, (err) => {
+    res.sendFile(file, { root: photoDir, headers: { 'Content-Type': type } }, (err) => {
       if (!err) return;
       if (res.headersSent) return void res.end();
       res.removeHeader('Content-Disposition');
@@ -124,12 +145,14 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
       res.status(404).json({ error: { code: 'not_found', message: 'The photo file is missing from storage' } });
     });
   };
-  r.get('/photos/:id', requireMember, servePhoto(false));
-  r.get('/photos/:id/thumb', requireMember, servePhoto(true));
+  r.get('/photos/:id', requireMember, servePhoto('display'));
+  r.get('/photos/:id/thumb', requireMember, servePhoto('thumb'));
+  r.get('/photos/:id/original', requireMember, servePhoto('original'));
 
   r.get('/studies/:id/photos', requireMember, async (req, res) => {
     const me = member(req);
     const studyId = idParam(req.params.id);
+    if (!(await studyExists(db, me.labId, studyId))) throw notFound('No such study in your lab');
     const list = await photosFor(db, me.labId, { studyId });
     res.json({ photos: list });
   });
@@ -145,7 +168,7 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
   r.post('/studies/:id/import/preview', requireRole('formulator'), importUpload, async (req, res) => {
     const me = member(req);
     const plan = await planImport(db, me.labId, idParam(req.params.id), me.lab.timeZone, csvOf(req));
-    res.json({ rows: plan.rows, errorCount: plan.errorCount });
+    res.json(previewOf(plan));
   });
   r.post('/studies/:id/import', requireRole('formulator'), importUpload, async (req, res) => {
     const me = member(req);
@@ -182,9 +205,20 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
     }));
   };
 
+  /** The audit query, with its study and member checked against the lab: another lab's ids are not found. */
+  const auditQueryOf = async (query: unknown, labId: number) => {
+    const q = parse(auditQuery, query, 'query');
+    if (q.studyId && !(await studyExists(db, labId, q.studyId))) throw notFound('No such study in your lab');
+    if (q.userId) {
+      const [u] = await db.select({ id: users.id }).from(users).where(and(eq(users.labId, labId), eq(users.id, q.userId)));
+      if (!u) throw notFound('No such member in your lab');
+    }
+    return q;
+  };
+
   r.get('/audit', requireRole('owner'), async (req, res) => {
     const me = member(req);
-    const q = parse(auditQuery, req.query, 'query');
+    const q = await auditQueryOf(req.query, me.labId);
     const pageSize = 100;
     const rows = await auditRows(me.labId, q, pageSize + 1, (q.page - 1) * pageSize);
     res.json({ rows: rows.slice(0, pageSize), page: q.page, more: rows.length > pageSize });
@@ -192,16 +226,11 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
 
   r.get('/audit.csv', requireRole('owner'), async (req, res) => {
     const me = member(req);
-    const q = parse(auditQuery, req.query, 'query');
+    const q = await auditQueryOf(req.query, me.labId);
     const rows = await auditRows(me.labId, q, 100_000, 0);
-    const cell = (v: unknown) => {
-      const s = v == null ? '' : typeof v === 'string' ? v : JSON.stringify(v);
-      // Quote every cell; neutralise spreadsheet formulas.
-      return `"${(/^[=+\-@]/.test(s) ? `'${s}` : s).replace(/"/g, '""')}"`;
-    };
     res.set({ 'Content-Type': 'text/csv; charset=utf-8', 'Content-Disposition': 'attachment; filename="audit-trail.csv"' });
     res.write('time_utc,who,action,entity,entity_id,old_value,new_value,reason\r\n');
-    for (const r of rows) res.write([r.at, r.user, r.action, r.entity, r.entityId, r.oldValue, r.newValue, r.reason].map(cell).join(',') + '\r\n');
+    for (const r of rows) res.write(csvLine([r.at, r.user, r.action, r.entity, r.entityId, r.oldValue, r.newValue, r.reason]));
     res.end();
   });
 

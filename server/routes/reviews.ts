@@ -1,5 +1,6 @@
 import { and, asc, eq } from 'drizzle-orm';
 import { Router } from 'express';
+import { csvLine } from '../../shared/csv';
 import { decisionInput, submitInput } from '../../shared/schemas/reviews';
 import { requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
@@ -73,26 +74,21 @@ export function reviewRoutes(db: Db, log: Logger, uploadsDir: string): Router {
       .innerJoin(samples, eq(samples.id, observations.sampleId))
       .innerJoin(batches, eq(batches.id, samples.batchId))
       .innerJoin(variants, eq(variants.id, batches.variantId))
-      .innerJoin(studyConditions, eq(studyConditions.id, samples.studyConditionId))
-      .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
+      // A retained sample of the initial test is in no condition.
+      .leftJoin(studyConditions, eq(studyConditions.id, samples.studyConditionId))
+      .leftJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
       .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
       .innerJoin(studyAttributes, eq(studyAttributes.id, observations.studyAttributeId))
       .innerJoin(attributes, eq(attributes.id, studyAttributes.attributeId))
       .innerJoin(users, eq(users.id, observations.recordedBy))
-      .where(eq(observations.studyId, id))
+      .where(and(eq(observations.labId, me.labId), eq(observations.studyId, id)))
       .orderBy(asc(samples.labelOrder), asc(checkpoints.dueDate), asc(studyAttributes.position));
-    const cell = (v: unknown) => {
-      const s = v == null ? '' : typeof v === 'string' ? v : typeof v === 'object' ? JSON.stringify(v) : String(v);
-      return /[",\r\n]|^[=+\-@]/.test(s) ? `"${(/^[=+\-@]/.test(s) ? `'${s}` : s).replace(/"/g, '""')}"` : s;
-    };
     const name = study.title.replace(/[^A-Za-z0-9]+/g, '-').replace(/^-|-$/g, '').slice(0, 60) || 'study';
     res.set({ 'Content-Type': 'text/csv; charset=utf-8', 'Content-Disposition': `attachment; filename="${name}-observations.csv"` });
     res.write('sample,variant,lot,condition,checkpoint,due_date,attribute,unit,value,verdict,not_done_reason,method,version,voided,recorded_by,recorded_at_utc\r\n');
     for (const x of rows) {
       res.write(
-        [x.sample, x.variant, x.lot, x.condition, x.checkpoint, x.due, x.attr.code, x.attr.unit, valueOf(x.attr.kind, x.o), x.o.verdict, x.o.notDoneReason, x.o.method, x.o.version, x.o.voided, x.who, x.o.recordedAt.toISOString()]
-          .map(cell)
-          .join(',') + '\r\n',
+        csvLine([x.sample, x.variant, x.lot, x.condition ?? 'Initial test', x.checkpoint, x.due, x.attr.code, x.attr.unit, valueOf(x.attr.kind, x.o), x.o.verdict, x.o.notDoneReason, x.o.method, x.o.version, x.o.voided, x.who, x.o.recordedAt.toISOString()]),
       );
     }
     res.end();

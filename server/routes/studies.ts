@@ -9,8 +9,6 @@ import {
   benchQuery,
   missedInput,
   studyPlanInput,
-  type Attribute,
-  type LabelSheet,
 } from '../../shared/schemas/studies';
 import { requireMember, requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
@@ -20,17 +18,16 @@ import {
   batches,
   checkpoints,
   products,
-  samples,
   storageConditions,
-  studies,
-  studyConditions,
   users,
   variants,
 } from '../db/schema';
 import { conflict, idParam, notFound, parse } from '../http/errors';
 import { audit } from '../services/audit';
+import { findProduct } from '../services/formulas';
 import { analyzeStudy } from '../services/analysis';
-import { conditionForCautions } from '../services/storage-conditions';
+import { labelSheet, samplePage } from '../services/study/samples';
+import { attributeView } from '../services/records';
 import { labs } from '../db/schema';
 import {
   amendStudy,
@@ -49,24 +46,8 @@ import {
 
 const actorOf = (u: Express.User): Actor => ({ id: u.id, labId: u.labId, timeZone: u.lab.timeZone });
 
-function toAttribute(a: typeof attributes.$inferSelect): Attribute {
-  return {
-    id: a.id,
-    code: a.code,
-    name: a.name,
-    kind: a.kind,
-    unit: a.unit,
-    decimals: a.decimals,
-    scale: a.scale ?? null,
-    methodFields: a.methodFields ?? null,
-    physicalMin: a.physicalMin,
-    physicalMax: a.physicalMax,
-    defaultCriterion: a.defaultCriterion ?? null,
-    description: a.description,
-    builtIn: a.builtIn,
-    active: a.active,
-  };
-}
+/** An attribute as the API shows it (the same shape the Record sheet uses). */
+const toAttribute = attributeView;
 
 /** Suggested role of a template, for the plan builder. */
 const TEMPLATE_ROLES: Record<string, string> = {
@@ -152,6 +133,8 @@ export function studyRoutes(db: Db): Router {
   r.get('/studies/options', requireMember, async (req, res) => {
     const me = member(req);
     const productId = req.query.productId ? idParam(req.query.productId) : null;
+    // Another lab's product (or an unknown one) is not found, as everywhere else.
+    if (productId !== null) await findProduct(db, me.labId, productId);
     const [productRows, batchRows, conditionRows, attributeRows, memberRows] = await Promise.all([
       db.select({ id: products.id, name: products.name, type: products.type }).from(products).where(eq(products.labId, me.labId)).orderBy(asc(products.name)),
       productId
@@ -267,82 +250,12 @@ export function studyRoutes(db: Db): Router {
   // ---------------------------------------------------------------- labels and samples
   r.get('/studies/:id/labels', requireMember, async (req, res) => {
     const me = member(req);
-    const id = idParam(req.params.id);
-    const [study] = await db
-      .select({ id: studies.id, title: studies.title, startDate: studies.startDate, product: products.name })
-      .from(studies)
-      .innerJoin(products, eq(products.id, studies.productId))
-      .where(and(eq(studies.labId, me.labId), eq(studies.id, id)));
-    if (!study) throw notFound('No such study in your lab');
-    const rows = await db
-      .select({
-        code: samples.code,
-        replicate: samples.replicate,
-        variant: variants.code,
-        variantName: variants.name,
-        lotCode: batches.lotCode,
-        condition: storageConditions.name,
-      })
-      .from(samples)
-      .innerJoin(batches, eq(batches.id, samples.batchId))
-      .innerJoin(variants, eq(variants.id, batches.variantId))
-      .innerJoin(studyConditions, eq(studyConditions.id, samples.studyConditionId))
-      .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
-      .where(eq(samples.studyId, id))
-      .orderBy(asc(samples.labelOrder));
-    const origin = `${req.protocol}://${req.get('host')}`;
-    const sheet: LabelSheet = {
-      study,
-      labels: rows.map((r) => ({
-        code: r.code,
-        url: `${origin}/samples/${r.code}`,
-        product: study.product,
-        variant: `${r.variant} · ${r.variantName}`,
-        lotCode: r.lotCode,
-        condition: r.condition,
-        startDate: study.startDate,
-        replicate: r.replicate,
-      })),
-    };
-    res.json(sheet);
+    res.json(await labelSheet(db, me.labId, idParam(req.params.id), `${req.protocol}://${req.get('host')}`));
   });
 
   r.get('/samples/:code', requireMember, async (req, res) => {
     const me = member(req);
-    const code = String(req.params.code).toUpperCase();
-    if (!/^[0-9A-Z]{4,12}$/.test(code)) throw notFound('No such sample in your lab');
-    const [row] = await db
-      .select({
-        s: samples,
-        study: { id: studies.id, title: studies.title, status: studies.status },
-        product: products.name,
-        variant: { code: variants.code, name: variants.name },
-        batch: { id: batches.id, lotCode: batches.lotCode, madeOn: batches.madeOn, packaging: batches.packaging },
-        condition: conditionForCautions,
-      })
-      .from(samples)
-      .innerJoin(studies, eq(studies.id, samples.studyId))
-      .innerJoin(products, eq(products.id, studies.productId))
-      .innerJoin(batches, eq(batches.id, samples.batchId))
-      .innerJoin(variants, eq(variants.id, batches.variantId))
-      .innerJoin(studyConditions, eq(studyConditions.id, samples.studyConditionId))
-      .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
-      .where(and(eq(samples.labId, me.labId), eq(samples.code, code)));
-    if (!row) throw notFound('No such sample in your lab');
-    const detail = await studyDetail(db, me.labId, row.study.id, todayIn(me.lab.timeZone));
-    res.json({
-      sample: {
-        id: row.s.id,
-        code: row.s.code,
-        replicate: row.s.replicate,
-        study: row.study,
-        product: row.product,
-        variant: row.variant,
-        batch: row.batch,
-        condition: row.condition,
-        checkpoints: detail.checkpoints.filter((c) => c.studyConditionId === row.s.studyConditionId),
-      },
-    });
+    res.json({ sample: await samplePage(db, me.labId, String(req.params.code), todayIn(me.lab.timeZone)) });
   });
 
   return r;

@@ -7,9 +7,8 @@ import { and, asc, eq, sql } from 'drizzle-orm';
 import { deltaE2000, deltaE76 } from '../../shared/compute/color';
 import type { Criterion } from '../../shared/compute/criteria';
 import { daysBetween } from '../../shared/compute/schedule';
-import { shelfLifeMultiBatch, type AcceptanceLimit, type ChartLine } from '../../shared/compute/shelf-life';
-import { DAYS_PER_MONTH, suggestShelfLife, type SuggestCondition, type SuggestResult } from '../../shared/compute/suggest';
-import type { StoredVerdict } from '../../shared/domain';
+import { limitValueText, shelfLifeMultiBatch, type AcceptanceLimit } from '../../shared/compute/shelf-life';
+import { DAYS_PER_MONTH, suggestShelfLife, type SuggestCondition } from '../../shared/compute/suggest';
 import type { Db } from '../db/client';
 import { chamberLogs, chamberReadings, checkpoints, observations, samples, studyAttributes } from '../db/schema';
 import { studyDetail } from './studies';
@@ -23,20 +22,22 @@ export type { Regression, Series, SeriesPoint, StudyAnalysis } from '../../share
 const monthsOf = (start: string, cp: { offsetUnit: string; offsetN: number; dueDate: string }) =>
   cp.offsetUnit === 'month' ? cp.offsetN : daysBetween(start, cp.dueDate) / DAYS_PER_MONTH;
 
-/** Absolute limits from a criterion; change criteria need the day-0 value. */
+/** Absolute limits from a criterion; change criteria need the initial (day-0) value. */
 export function absoluteLimit(c: Criterion, baseline: number | null, decimals: number): { limit: AcceptanceLimit; basis: string } | null {
   switch (c.kind) {
     case 'range':
       return { limit: { lower: c.min ?? null, upper: c.max ?? null, decimals }, basis: 'range' };
-    case 'change_abs':
+    // The basis names the limits as used, at full precision (a mean of 5.485 ± 0.5 gives 4.985, not 4.99).
+    case 'change_abs': {
       if (baseline == null) return null;
-      return { limit: { lower: baseline - c.max, upper: baseline + c.max, decimals }, basis: `day-0 mean ${baseline.toFixed(decimals)} ± ${c.max}` };
-    case 'change_pct':
+      const limit = { lower: baseline - c.max, upper: baseline + c.max, decimals };
+      return { limit, basis: `initial mean ${limitValueText(baseline)} ± ${c.max}: ${limitValueText(limit.lower)} to ${limitValueText(limit.upper)}` };
+    }
+    case 'change_pct': {
       if (baseline == null) return null;
-      return {
-        limit: { lower: baseline * (1 - c.max / 100), upper: baseline * (1 + c.max / 100), decimals },
-        basis: `day-0 mean ${baseline.toFixed(decimals)} ± ${c.max} %`,
-      };
+      const limit = { lower: baseline * (1 - c.max / 100), upper: baseline * (1 + c.max / 100), decimals };
+      return { limit, basis: `initial mean ${limitValueText(baseline)} ± ${c.max} %: ${limitValueText(limit.lower)} to ${limitValueText(limit.upper)}` };
+    }
     default:
       return null;
   }
@@ -89,7 +90,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
         valueBool: observations.valueBool,
         verdict: observations.verdict,
       },
-      cp: { id: checkpoints.id, label: checkpoints.label, dueDate: checkpoints.dueDate, offsetUnit: checkpoints.offsetUnit, offsetN: checkpoints.offsetN },
+      cp: { id: checkpoints.id, kind: checkpoints.kind, label: checkpoints.label, dueDate: checkpoints.dueDate, offsetUnit: checkpoints.offsetUnit, offsetN: checkpoints.offsetN },
       s: { batchId: samples.batchId, studyConditionId: samples.studyConditionId, code: samples.code },
     })
     .from(observations)
@@ -105,35 +106,50 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   }));
 
   // ---------------------------------------------------------------- series
+  // The initial test is t = 0 of every condition for its batch: its readings join each condition's series.
   const seriesMap = new Map<string, Series>();
+  const initialValues = new Map<string, number[]>();
   for (const { o, cp, s } of obs) {
     const a = attrRows.find((x) => x.sa.id === o.studyAttributeId);
     const b = batchOf.get(s.batchId);
     if (!a || !b) continue;
-    const key = `${o.studyAttributeId}:${s.batchId}:${s.studyConditionId}`;
-    if (!seriesMap.has(key)) {
-      seriesMap.set(key, { studyAttributeId: o.studyAttributeId, variantId: b.variant.id, batchId: b.id, lotCode: b.lotCode, studyConditionId: s.studyConditionId, points: [] });
+    const value = o.verdict === 'not_done' ? null : valueOf(a.a.kind, o);
+    const initial = cp.kind === 'initial';
+    if (initial && typeof value === 'number') {
+      const k = `${b.variant.id}:${o.studyAttributeId}`;
+      initialValues.set(k, [...(initialValues.get(k) ?? []), value]);
     }
-    seriesMap.get(key)!.points.push({
-      checkpointId: cp.id,
-      label: cp.label,
-      months: monthsOf(d.startDate, cp),
-      dueDate: cp.dueDate,
-      value: o.verdict === 'not_done' ? null : valueOf(a.a.kind, o),
-      verdict: o.verdict,
-      sampleCode: s.code,
-    });
+    const targets = initial ? d.conditions.map((c) => c.id) : s.studyConditionId != null ? [s.studyConditionId] : [];
+    for (const scId of targets) {
+      const key = `${o.studyAttributeId}:${s.batchId}:${scId}`;
+      if (!seriesMap.has(key)) {
+        seriesMap.set(key, { studyAttributeId: o.studyAttributeId, variantId: b.variant.id, batchId: b.id, lotCode: b.lotCode, studyConditionId: scId, points: [] });
+      }
+      seriesMap.get(key)!.points.push({
+        checkpointId: cp.id,
+        label: cp.label,
+        months: initial ? 0 : monthsOf(d.startDate, cp),
+        dueDate: cp.dueDate,
+        value,
+        verdict: o.verdict,
+        sampleCode: s.code,
+      });
+    }
   }
   const series = [...seriesMap.values()];
 
   // ---------------------------------------------------------------- limits per variant and attribute
+  // A change criterion's limits come from the variant's mean initial reading (a study recorded before
+  // the initial test existed: its day-0 readings).
   const limits: StudyAnalysis['limits'] = [];
   for (const v of variants) {
     for (const { sa, a } of attrRows) {
       if (a.kind !== 'measured') continue;
-      const day0 = series
-        .filter((x) => x.variantId === v.id && x.studyAttributeId === sa.id)
-        .flatMap((x) => x.points.filter((p) => p.months === 0 && typeof p.value === 'number').map((p) => p.value as number));
+      const day0 =
+        initialValues.get(`${v.id}:${sa.id}`) ??
+        series
+          .filter((x) => x.variantId === v.id && x.studyAttributeId === sa.id)
+          .flatMap((x) => x.points.filter((p) => p.months === 0 && typeof p.value === 'number').map((p) => p.value as number));
       const baseline = day0.length ? day0.reduce((s, x) => s + x, 0) / day0.length : null;
       const l = absoluteLimit(sa.criterion, baseline, a.decimals);
       if (l) limits.push({ studyAttributeId: sa.id, variantId: v.id, ...l });
@@ -148,7 +164,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
         .filter((x) => x.variantId === l.variantId && x.studyAttributeId === l.studyAttributeId && x.studyConditionId === c.id)
         .flatMap((x) => x.points.filter((p) => typeof p.value === 'number').map((p) => ({ batch: x.lotCode, t: p.months, y: p.value as number })));
       if (!pts.length) continue;
-      const r = shelfLifeMultiBatch(pts, l.limit, { maxMonths: 60 });
+      const r = shelfLifeMultiBatch(pts, l.limit);
       regressions.push({
         studyAttributeId: l.studyAttributeId,
         variantId: l.variantId,
@@ -161,6 +177,10 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
         lines: r.lines,
         levelPerSide: r.levelPerSide,
         tValue: r.tValue,
+        horizonMonths: r.horizonMonths,
+        ...(r.warning ? { warning: r.warning } : {}),
+        excluded: r.excluded,
+        alternative: r.alternative,
       });
     }
   }
@@ -170,8 +190,14 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   const [lId, aId, bId] = [code('color_l'), code('color_a'), code('color_b')];
   const deltaE: StudyAnalysis['deltaE'] = [];
   if (lId && aId && bId) {
+    const initialIds = new Set(d.checkpoints.filter((c) => c.kind === 'initial').map((c) => c.id));
     for (const s of d.samples) {
-      const pick = (id: number) => series.find((x) => x.studyAttributeId === id && x.studyConditionId === s.studyConditionId && x.batchId === s.batchId)?.points.filter((p) => p.sampleCode === s.code) ?? [];
+      if (s.studyConditionId == null) continue;
+      // This sample's own readings, and its batch's initial test as the reference.
+      const pick = (id: number) =>
+        series
+          .find((x) => x.studyAttributeId === id && x.studyConditionId === s.studyConditionId && x.batchId === s.batchId)
+          ?.points.filter((p, i, all) => (p.sampleCode === s.code || initialIds.has(p.checkpointId)) && all.findIndex((q) => q.checkpointId === p.checkpointId) === i) ?? [];
       const L = pick(lId);
       const A = pick(aId);
       const B = pick(bId);
@@ -186,7 +212,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
         return { label: p.label, months: p.months, de76: deltaE76(ref, cur), de00: deltaE2000(ref, cur) };
       });
       const b = batchOf.get(s.batchId)!;
-      deltaE.push({ variantId: b.variant.id, studyConditionId: s.studyConditionId, sampleCode: s.code, points });
+      deltaE.push({ variantId: b.variant.id, studyConditionId: s.studyConditionId!, sampleCode: s.code, points });
     }
   }
 

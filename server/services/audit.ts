@@ -4,7 +4,7 @@ import { auditLog } from '../db/schema';
 export interface AuditEntry {
   labId: number;
   userId: number | null;
-  action: 'create' | 'update' | 'delete' | 'void' | 'sign' | 'sign_failed' | 'submit' | 'sign_in' | 'lockout' | 'amend' | 'import';
+  action: 'create' | 'update' | 'delete' | 'void' | 'sign' | 'sign_failed' | 'submit' | 'sign_in' | 'lockout' | 'amend' | 'import' | 'migrate' | 'remeasure' | 'confirm' | 'close';
   entity: string;
   entityId?: string | number | null;
   studyId?: number | null;

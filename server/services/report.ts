@@ -40,6 +40,8 @@ pdfmake.setUrlAccessPolicy(() => false);
 pdfmake.setLocalAccessPolicy((p) => p.startsWith(INTER));
 
 
+
+const OOS_BENCH_WORDS = { unconfirmed: 'Unconfirmed', remeasured: 'Re-measured', confirmed: 'Confirmed at the bench' } as const;
 /** The shipped Inter subset lacks some symbols: spell them so no empty boxes print. */
 function printable<T>(x: T): T {
   if (typeof x === 'string') return x.replace(/Δ/g, 'Delta ').replace(/≈/g, '~').replace(/≤/g, '<=').replace(/≥/g, '>=').replace(/√/g, 'sqrt').replace(/·/g, '·') as T;
@@ -138,7 +140,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
     const v = a.variants.find((x) => x.id === id);
     return v ? `${v.code} · ${v.name}` : String(id);
   };
-  const condName = (id: number) => a.conditions.find((c) => c.id === id)?.name ?? String(id);
+  const condName = (id: number | null) => (id == null ? 'Initial test (before storage)' : (a.conditions.find((c) => c.id === id)?.name ?? String(id)));
   const h = (text: string) => ({ text, style: 'h2', margin: [0, 14, 0, 6], headlineLevel: 1 });
   const table = (widths: (string | number)[], head: string[] | null, body: unknown[][]) => ({
     table: { headerRows: head ? 1 : 0, widths, body: head ? [head.map((x) => ({ text: x, style: 'th' })), ...body] : body },
@@ -180,11 +182,18 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
   }
 
   // Every observation, in long format.
+  // The initial test appears in every condition's series (it is each one's t = 0): list its readings once.
   const obsBody: unknown[][] = [];
+  const initialIds = new Set(d.checkpoints.filter((c) => c.kind === 'initial').map((c) => c.id));
+  const listed = new Set<string>();
   for (const s of a.series) {
     const attr = a.attributes.find((x) => x.id === s.studyAttributeId)!;
     for (const p of s.points) {
-      obsBody.push([p.sampleCode, variantName(s.variantId).split(' ·')[0], s.lotCode, condName(s.studyConditionId), p.label, attr.name, `${fmtValue(p.value, attr.kind === 'measured' ? attr.decimals : null)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`, { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail' }]);
+      const initial = initialIds.has(p.checkpointId);
+      const key = `${p.checkpointId}:${p.sampleCode}:${s.studyAttributeId}`;
+      if (initial && listed.has(key)) continue;
+      listed.add(key);
+      obsBody.push([p.sampleCode, variantName(s.variantId).split(' ·')[0], s.lotCode, initial ? 'Initial test' : condName(s.studyConditionId), p.label, attr.name, `${fmtValue(p.value, attr.kind === 'measured' ? attr.decimals : null)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`, { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail' }]);
     }
   }
 
@@ -273,6 +282,23 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
         { text: s.result.confidenceNote, style: 'muted', margin: [0, 3, 0, 0] },
       ]),
       { text: a.suggestions[0]?.result.caution ?? '', italics: true, margin: [0, 6, 0, 0] },
+      h('Out-of-specification results'),
+      review.investigations.length
+        ? table(
+            ['auto', 'auto', '*', 'auto', '*', '*'],
+            ['Sample', 'Checkpoint', 'Attribute and result', 'At the bench', 'Investigation', 'Conclusion'],
+            review.investigations.map((i) => [
+              `${i.sampleCode} (${i.variant}, ${i.lotCode})`,
+              `${i.condition ?? 'Initial test'} ${i.checkpoint.label}`,
+              `${i.attribute.name}: ${fmtValue(i.failed.value, i.attribute.decimals)}${i.attribute.unit && typeof i.failed.value === 'number' ? ` ${i.attribute.unit}` : ''}. ${i.failed.message}`,
+              [OOS_BENCH_WORDS[i.benchStep], i.remeasure ? `re-measured ${fmtValue(i.remeasure.value, i.attribute.decimals)}` : '', i.benchComment ?? ''].filter(Boolean).join('; '),
+              i.checks ? `Instrument: ${i.checks.instrument} Method: ${i.checks.method} Sample: ${i.checks.sample} Calculation: ${i.checks.calculation}` : 'Open',
+              i.status === 'open'
+                ? { text: 'OPEN', bold: true }
+                : `${i.conclusion === 'invalidated' ? `Invalidated as a lab error; the valid re-test ${fmtValue(i.retest?.value ?? null, i.attribute.decimals)} is used` : 'Confirmed'}: ${i.reason ?? ''} (${i.closed?.by}, ${i.closed?.at.slice(0, 10)})`,
+            ]),
+          )
+        : { text: 'None: no result failed its criterion.', italics: true },
       h('Every observation'),
       obsBody.length ? table(['auto', 'auto', 'auto', '*', 'auto', '*', 'auto', 'auto'], ['Sample', 'Var.', 'Lot', 'Condition', 'Checkpoint', 'Attribute', 'Value', 'Verdict'], obsBody) : { text: 'No observations recorded.', italics: true },
       ...(photoRowsOut.length ? [h('Photos at key checkpoints'), ...photoRowsOut] : []),

@@ -44,12 +44,19 @@ import type { Logger } from '../log';
 import { analyzeStudy } from './analysis';
 import { audit } from './audit';
 import { cycleHoursOf, planOf, todayIn } from './studies';
+import { investigationsOf } from './oos';
+import { pairedControlFor } from './study/amend';
 
 const bad = (fields: Record<string, string>) => new HttpError(400, 'validation', `Invalid input: check ${Object.keys(fields).join(', ')}`, fields);
 
 /** SHA-256 over the study's plan, checkpoints and every observation version (voided ones too), in a fixed order. */
 export async function studyDataHash(db: DbOrTx, labId: number, studyId: number): Promise<string> {
-  const plan = await planOf(db, studyId);
+  const full = await planOf(db, studyId);
+  // Pairing settings at their defaults are left out, so signatures made before pairing existed still match.
+  const plan = {
+    ...full,
+    conditions: full.conditions.map(({ pairControl, pairingOffReason, ...c }) => (pairControl && !pairingOffReason ? c : { ...c, pairControl, pairingOffReason })),
+  };
   const cps = await db
     .select({ id: checkpoints.id, status: checkpoints.status, dueDate: checkpoints.dueDate, label: checkpoints.label })
     .from(checkpoints)
@@ -106,14 +113,22 @@ export async function submitStudy(db: Db, who: { id: number; labId: number }, st
     const missing = vs.filter((v) => !input.proposals.some((p) => p.variantId === v.id));
     if (missing.length) fields.proposals = `Propose a figure for variant ${missing.map((v) => v.code).join(', ')}`;
     if (Object.keys(fields).length) throw bad(fields);
+    // Open out-of-specification investigations must be closed first: the review reads their conclusions.
+    const open = await investigationsOf(tx, who.labId, { studyId, openOnly: true });
+    if (open.length) {
+      const list = open.map((i) => `${i.sampleCode} ${i.checkpoint.label} ${i.attribute.name}`).join('; ');
+      throw new HttpError(409, 'conflict', `${open.length} out-of-specification ${open.length === 1 ? 'investigation is' : 'investigations are'} still open (${list}): close ${open.length === 1 ? 'it' : 'them'} before submitting`, {
+        investigations: `${open.length} open: ${list}`,
+      });
+    }
     const [{ n }] = await tx
       .select({ n: sql<number>`count(*)` })
       .from(checkpoints)
       .where(and(eq(checkpoints.studyId, studyId), eq(checkpoints.status, 'open')));
-    const open = Number(n);
-    if (open > 0 && !input.openCheckpointsReason) {
-      throw new HttpError(422, 'unprocessable', `${openCheckpointsText(open)}: finish them, or say why the study ends early`, {
-        openCheckpointsReason: openCheckpointsProblem(open),
+    const openCps = Number(n);
+    if (openCps > 0 && !input.openCheckpointsReason) {
+      throw new HttpError(422, 'unprocessable', `${openCheckpointsText(openCps)}: finish them, or say why the study ends early`, {
+        openCheckpointsReason: openCheckpointsProblem(openCps),
       });
     }
     const [{ id }] = await tx
@@ -135,7 +150,7 @@ export async function submitStudy(db: Db, who: { id: number; labId: number }, st
       entity: 'study',
       entityId: studyId,
       oldValue: { status: 'running' },
-      newValue: { status: 'in_review', submissionId: id, proposals: input.proposals, openCheckpoints: Number(open) },
+      newValue: { status: 'in_review', submissionId: id, proposals: input.proposals, openCheckpoints: openCps },
       reason: input.openCheckpointsReason ?? null,
     });
   });
@@ -248,10 +263,12 @@ export async function decide(
         const sc = scs.find((x) => x.sc.id === n.studyConditionId);
         if (!sc) throw bad({ [`newCheckpoints.${i}.studyConditionId`]: 'Not a condition of this study' });
         const [s] = generateSchedule({ startDate: study.startDate, offsets: [n.offset], cycleHours: cycleHoursOf(sc.c) ?? undefined });
+        const control = sc.sc.role === 'control' ? null : await pairedControlFor(tx, who.labId, study, sc.sc.pairControl, s, amendmentId);
         await tx.insert(checkpoints).values({
           labId: who.labId,
           studyId,
           studyConditionId: sc.sc.id,
+          controlCheckpointId: control?.id ?? null,
           offsetUnit: n.offset.unit,
           offsetN: n.offset.n,
           label: s.label,
@@ -333,6 +350,7 @@ export async function reviewOf(db: Db, labId: number, studyId: number) {
     currentDecisions(db, studyId),
     studyDataHash(db, labId, studyId),
   ]);
+  const investigations = await investigationsOf(db, labId, { studyId });
   const supersededBy = new Map(all.filter((d) => d.supersedesId).map((d) => [d.supersedesId!, d.id]));
   const view = (d: (typeof all)[number]): DecisionView => {
     const v = vs.find((x) => x.id === d.variantId);
@@ -372,6 +390,8 @@ export async function reviewOf(db: Db, labId: number, studyId: number) {
     decisions: all.map(view),
     current: current.map(view),
     dataHash: hash,
+    /** Every out-of-specification result and its investigation (open ones block submitting). */
+    investigations,
   };
 }
 

@@ -38,13 +38,15 @@ export const SCHEDULE_TEMPLATE_LABELS: Readonly<Record<ScheduleTemplateId, strin
 
 /**
  * Built-in templates. real-time-36m follows ICH Q1A(R2) 2.1.7 / 2.2.7 (every 3 months in the first
- * year, every 6 months in the second, annually after); the others are common practice.
+ * year, every 6 months in the second, annually after); the others are common practice. None has a
+ * day 0: the initial test is done once per batch for the whole study (shared/compute/study-calendar.ts);
+ * a centrifuge test is itself done at the start.
  */
 export const SCHEDULE_TEMPLATES: Readonly<Record<ScheduleTemplateId, ScheduleTemplate>> = {
   'accelerated-12w': {
     id: 'accelerated-12w',
     label: SCHEDULE_TEMPLATE_LABELS['accelerated-12w'],
-    offsets: [d(0), w(1), w(2), w(4), w(8), w(12)],
+    offsets: [w(1), w(2), w(4), w(8), w(12)],
   },
   'freeze-thaw-5': {
     id: 'freeze-thaw-5',
@@ -54,12 +56,12 @@ export const SCHEDULE_TEMPLATES: Readonly<Record<ScheduleTemplateId, ScheduleTem
   'real-time-36m': {
     id: 'real-time-36m',
     label: SCHEDULE_TEMPLATE_LABELS['real-time-36m'],
-    offsets: [m(0), m(3), m(6), m(9), m(12), m(18), m(24), m(36)],
+    offsets: [m(3), m(6), m(9), m(12), m(18), m(24), m(36)],
   },
   'light-4w': {
     id: 'light-4w',
     label: SCHEDULE_TEMPLATE_LABELS['light-4w'],
-    offsets: [d(0), w(1), w(2), w(3), w(4)],
+    offsets: [w(1), w(2), w(3), w(4)],
   },
   centrifuge: {
     id: 'centrifuge',

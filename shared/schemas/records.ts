@@ -3,20 +3,21 @@
  * voids, photos, bulk import and the audit trail. Shared by client and server.
  */
 import { z } from 'zod';
+import { calendarDate, text } from './common';
 import type { Criterion, Evaluation } from '../compute/criteria';
 import type { ConditionKind, ConditionRole, LightSource, StoredVerdict } from '../domain';
 import type { Attribute, StudyCheckpoint } from './studies';
 
-const reason = z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000, 'At most 2000 characters');
+const reason = text().trim().min(3, 'Give a reason (at least 3 characters)').max(2000, 'At most 2000 characters');
 
 /** A value as typed: number (measured, graded), level (compared), boolean (pass/fail), text (note). */
 export const observedValue = z.union([
   z.number().finite('Must be a number'),
   z.boolean(),
-  z.string().trim().min(1, 'Enter a value').max(2000, 'At most 2000 characters'),
+  text().trim().min(1, 'Enter a value').max(2000, 'At most 2000 characters'),
 ]);
 
-export const methodValues = z.record(z.string().max(32), z.union([z.string().max(60), z.number().finite()])).refine(
+export const methodValues = z.record(text().max(32), z.union([text().max(60), z.number().finite()])).refine(
   (m) => Object.keys(m).length <= 8,
   'At most 8 method details',
 );
@@ -55,8 +56,8 @@ export const voidInput = z.strictObject({ reason });
 export const auditQuery = z.strictObject({
   studyId: z.coerce.number().int().positive().optional(),
   userId: z.coerce.number().int().positive().optional(),
-  from: z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use YYYY-MM-DD').optional(),
-  to: z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use YYYY-MM-DD').optional(),
+  from: calendarDate.optional(),
+  to: calendarDate.optional(),
   page: z.coerce.number().int().min(1).max(100_000).default(1),
 });
 
@@ -73,24 +74,35 @@ export interface ObservationView {
   recordedAt: string;
   version: number;
   voided: boolean;
+  /** Out of specification: the investigation this failing reading opened. */
+  investigation: {
+    id: number;
+    status: 'open' | 'closed';
+    benchStep: 'unconfirmed' | 'remeasured' | 'confirmed';
+    remeasure: { value: number | string | boolean; verdict: StoredVerdict } | null;
+    conclusion: 'confirmed' | 'invalidated' | null;
+  } | null;
 }
 
 export interface ReferenceValue {
   value: number | string | boolean;
   label: string;
   sampleCode?: string;
+  /** A control value: read the same day as this pull (false: the latest earlier one, for a pull without a paired control reading). */
+  sameDay?: boolean;
 }
 
 export interface RecordAttribute {
   studyAttributeId: number;
   attribute: Attribute;
   criterion: Criterion;
-  /** Day-0 value of this sample (or of its batch's day-0 reading). */
+  /** The baseline: the reading of this sample's batch at the initial test (same replicate first). */
   baseline: ReferenceValue | null;
   previous: ReferenceValue | null;
   /**
-   * For compared attributes: the control sample's latest value at or before this checkpoint's window
-   * end. Always null on a sample of the control condition itself.
+   * For compared attributes: the control sample's value read the same day (the pull's paired control
+   * reading), else, for a pull without one, the latest control value up to this checkpoint's window
+   * end (sameDay false). Always null on the control itself and at the initial test.
    */
   control: ReferenceValue | null;
   current: ObservationView | null;
@@ -98,8 +110,11 @@ export interface RecordAttribute {
 
 export interface PhotoView {
   id: number;
+  /** The display copy: at most 2048 px, re-encoded without EXIF/GPS or other metadata. */
   url: string;
   thumbUrl: string;
+  /** The file as uploaded, sent as a download (attachment). */
+  originalUrl: string;
   width: number;
   height: number;
   caption: string | null;
@@ -118,8 +133,8 @@ export interface RecordSheet {
     product: string;
     variant: { code: string; name: string };
     lotCode: string;
-    /** The storage condition, with what its safety cautions depend on, and its role in this study. */
-    condition: {
+    /** The storage condition, with what its safety cautions depend on, and its role in this study; null for the initial test's retained sample. */
+    condition: null | {
       id: number;
       name: string;
       location: string;
@@ -132,6 +147,11 @@ export interface RecordSheet {
     };
   };
   checkpoint: StudyCheckpoint;
+  /**
+   * The control reading this pull is judged against (read the same day): which, and whether the
+   * control sample of this batch has been recorded there yet (if not, record it first).
+   */
+  controlReading: { checkpointId: number; label: string; dueDate: string; sampleCode: string | null; recorded: boolean; initial: boolean } | null;
   /** Whether recording is open now, and why not when it is not. */
   open: boolean;
   closedReason: string | null;
@@ -149,7 +169,8 @@ export interface RevisionView {
   verdict: StoredVerdict;
   recordedBy: string;
   recordedAt: string;
-  change: 'correction' | 'void' | null;
+  /** correction, void, invalidated (an out-of-specification result replaced by its valid re-test), remeasure (a second bench reading kept beside it). */
+  change: 'correction' | 'void' | 'invalidated' | 'remeasure' | null;
   changedBy: string | null;
   changedAt: string | null;
   reason: string | null;
@@ -164,6 +185,20 @@ export interface ImportPreviewRow {
   checkpointLabel: string | null;
   evaluation: Evaluation | null;
   error: string | null;
+}
+
+/** The import preview: the first lines (at most 50), the counts of the whole file, the first problems (at most 200). */
+export interface ImportPreview {
+  rows: ImportPreviewRow[];
+  /** Lines below the header. */
+  totalRows: number;
+  /** Lines ready to import. */
+  okRows: number;
+  /** Lines with a problem (all of them). */
+  errorCount: number;
+  errors: { line: number; message: string }[];
+  /** Problems not listed in `errors`. */
+  moreErrors: number;
 }
 
 export interface AuditRow {

@@ -4,11 +4,13 @@
  * to check forms before sending and to type responses.
  */
 import { z } from 'zod';
+import { calendarDate, text } from './common';
+import type { Investigation } from './oos';
 import { COMPARED_LEVELS, criterionError, type Criterion } from '../compute/criteria';
 import type { CheckpointState, Offset } from '../compute/schedule';
-import { isValidLocalDate } from '../compute/schedule';
 import {
   AMENDMENT_KINDS,
+  type CheckpointKind,
   ATTRIBUTE_KINDS,
   CONDITION_ROLES,
   type AttributeScaleStep,
@@ -19,8 +21,9 @@ import {
 } from '../domain';
 
 const id = z.number({ message: 'Choose one' }).int('Must be a whole number').positive('Choose one');
-export const localDate = z.string().refine((s) => isValidLocalDate(s), 'Use a date as YYYY-MM-DD');
-const reason = z.string().trim().min(3, 'Give a reason (at least 3 characters)').max(2000, 'At most 2000 characters');
+/** A calendar date (the shared date schema: real, 1900-01-01..2199-12-31). */
+export const localDate = calendarDate;
+const reason = text().trim().min(3, 'Give a reason (at least 3 characters)').max(2000, 'At most 2000 characters');
 
 export const offset = z.discriminatedUnion('unit', [
   z.strictObject({
@@ -59,17 +62,16 @@ export const criterion = z
 
 export const attributeInput = z
   .strictObject({
-    code: z
-      .string()
+    code: text()
       .trim()
       .toLowerCase()
       .regex(/^[a-z][a-z0-9_]{1,31}$/, 'Letters, digits and _ only, starting with a letter (2-32 characters)'),
-    name: z.string().trim().min(1, 'Give a name').max(80, 'At most 80 characters'),
+    name: text().trim().min(1, 'Give a name').max(80, 'At most 80 characters'),
     kind: z.enum(ATTRIBUTE_KINDS),
-    unit: z.string().trim().max(24, 'At most 24 characters').nullable().optional(),
+    unit: text().trim().max(24, 'At most 24 characters').nullable().optional(),
     decimals: z.number().int().min(0).max(6).default(2),
     scale: z
-      .array(z.strictObject({ grade: z.number().int().min(0).max(20), label: z.string().trim().min(1).max(80) }))
+      .array(z.strictObject({ grade: z.number().int().min(0).max(20), label: text().trim().min(1).max(80) }))
       .min(2, 'A scale needs at least two grades')
       .max(21)
       .nullable()
@@ -77,10 +79,10 @@ export const attributeInput = z
     methodFields: z
       .array(
         z.strictObject({
-          key: z.string().regex(/^[a-z][a-z0-9_]{0,31}$/),
-          label: z.string().trim().min(1).max(60),
-          options: z.array(z.string().trim().min(1).max(60)).max(20).optional(),
-          unit: z.string().max(16).optional(),
+          key: text().regex(/^[a-z][a-z0-9_]{0,31}$/),
+          label: text().trim().min(1).max(60),
+          options: z.array(text().trim().min(1).max(60)).max(20).optional(),
+          unit: text().max(16).optional(),
         }),
       )
       .max(8)
@@ -89,7 +91,7 @@ export const attributeInput = z
     physicalMin: num.nullable().optional(),
     physicalMax: num.nullable().optional(),
     defaultCriterion: criterion.nullable().optional(),
-    description: z.string().max(2000).nullable().optional(),
+    description: text().max(2000).nullable().optional(),
   })
   .superRefine((a, ctx) => {
     if (a.kind === 'graded' && !a.scale) ctx.addIssue({ code: 'custom', path: ['scale'], message: 'A graded attribute needs its scale' });
@@ -118,12 +120,21 @@ export interface Attribute {
 
 // ---------------------------------------------------------------- study plan
 
-export const planConditionInput = z.strictObject({
-  conditionId: id,
-  role: z.enum(CONDITION_ROLES),
-  template: z.string().max(32).nullable().optional(),
-  offsets: z.array(offset).min(1, 'Add at least one checkpoint').max(60, 'At most 60 checkpoints'),
-});
+export const planConditionInput = z
+  .strictObject({
+    conditionId: id,
+    role: z.enum(CONDITION_ROLES),
+    template: text().max(32).nullable().optional(),
+    offsets: z.array(offset).min(1, 'Add at least one checkpoint').max(60, 'At most 60 checkpoints'),
+    /** Pair each pull with a same-day control reading (the default); turning it off needs a reason. */
+    pairControl: z.boolean().default(true),
+    pairingOffReason: text().trim().max(500, 'At most 500 characters').nullable().optional(),
+  })
+  .superRefine((c, ctx) => {
+    if (!c.pairControl && (!c.pairingOffReason || c.pairingOffReason.length < 3)) {
+      ctx.addIssue({ code: 'custom', path: ['pairingOffReason'], message: 'Say why this condition needs no same-day control reading' });
+    }
+  });
 
 export const planAttributeInput = z.strictObject({
   attributeId: id,
@@ -132,22 +143,24 @@ export const planAttributeInput = z.strictObject({
 
 export const studyPlanInput = z.strictObject({
   productId: id,
-  title: z.string().trim().min(1, 'Give the study a title').max(160, 'At most 160 characters'),
+  title: text().trim().min(1, 'Give the study a title').max(160, 'At most 160 characters'),
   startDate: localDate,
   batchIds: z.array(id).min(1, 'Choose at least one batch').max(40, 'At most 40 batches'),
   conditions: z.array(planConditionInput).min(1, 'Choose at least one storage condition').max(20, 'At most 20 conditions'),
   attributes: z.array(planAttributeInput).min(1, 'Choose at least one attribute').max(40, 'At most 40 attributes'),
   samplesPerCell: z.number().int().min(1, 'At least 1').max(20, 'At most 20').default(1),
-  containerDescription: z.string().trim().max(200, 'At most 200 characters').default(''),
+  containerDescription: text().trim().max(200, 'At most 200 characters').default(''),
   fillGrams: z.number().positive('Must be more than 0').max(100_000).nullable().optional(),
   responsibleId: id.nullable().optional(),
-  notes: z.string().max(5000, 'At most 5000 characters').nullable().optional(),
+  notes: text().max(5000, 'At most 5000 characters').nullable().optional(),
 });
 export type StudyPlanInput = z.infer<typeof studyPlanInput>;
 
 export const amendmentInput = z.discriminatedUnion('kind', [
   z.strictObject({ kind: z.literal('add_checkpoint'), studyConditionId: id, offset, reason }),
   z.strictObject({ kind: z.literal('end_condition'), studyConditionId: id, endedOn: localDate, reason }),
+  /** Judge a pull against another control reading of the same study and batch (e.g. read a day later). */
+  z.strictObject({ kind: z.literal('pair_control'), checkpointId: id, controlCheckpointId: id, reason }),
   z.strictObject({ kind: z.literal('cancel'), reason }),
   z.strictObject({ kind: z.literal('other'), reason }),
 ]);
@@ -175,6 +188,9 @@ export interface StudySummary {
   sampleCount: number;
   nextDue: string | null;
   overdueCount: number;
+  /** Out-of-specification investigations still open, and of them the results not yet re-measured or confirmed. */
+  openInvestigations: number;
+  unconfirmed: number;
 }
 
 export interface PlanCondition {
@@ -189,6 +205,8 @@ export interface PlanCondition {
   role: ConditionRole;
   template: string | null;
   offsets: Offset[];
+  pairControl: boolean;
+  pairingOffReason: string | null;
   endedOn: string | null;
   endedReason: string | null;
 }
@@ -219,12 +237,21 @@ export interface PreviewCheckpoint {
   windowStart: string;
   windowEnd: string;
   warnings: string[];
+  /** A pull: the day of the control reading it is judged against (the start date: the initial test), or null for none. */
+  controlDate?: string | null;
+  /** A control reading: the pulls it serves ("45 °C oven Week 4"), and whether it was added for them. */
+  serves?: string[];
+  added?: boolean;
 }
 
 export interface PlanPreview {
   sampleCount: number;
   containerCount: number;
   gramsPerBatch: number | null;
+  /** The initial test: once per batch on the start date, before the samples go into their conditions. */
+  initial: { label: string; dueDate: string; windowEnd: string; samples: number };
+  /** Readings the plan asks for, and what one initial test per batch saves against a day 0 in every condition. */
+  readings: { initial: number; pulls: number; addedControl: number; total: number; perConditionDayZero: number; saved: number };
   perCondition: { conditionId: number; name: string; checkpoints: PreviewCheckpoint[] }[];
   /** Plain-language warnings: weekend checkpoints, no control, inactive condition... */
   warnings: string[];
@@ -234,7 +261,12 @@ export interface PlanPreview {
 
 export interface StudyCheckpoint {
   id: number;
-  studyConditionId: number;
+  /** Null for the study's initial test. */
+  studyConditionId: number | null;
+  /** 'initial' (the study's one initial test), 'pull', or 'extra_day0' (a condition's own day 0 kept from before). */
+  kind: CheckpointKind;
+  /** A pull's same-day control reading (a control pull, or the initial test). */
+  controlCheckpointId: number | null;
   label: string;
   offset: Offset;
   dueDate: string;
@@ -250,7 +282,8 @@ export interface StudyCheckpoint {
 export interface StudySample {
   id: number;
   code: string;
-  studyConditionId: number;
+  /** Null for a batch's retained sample of the initial test. */
+  studyConditionId: number | null;
   batchId: number;
   replicate: number;
   labelOrder: number;
@@ -284,6 +317,8 @@ export interface StudyDetail {
   samples: StudySample[];
   checkpoints: StudyCheckpoint[];
   amendments: Amendment[];
+  /** Every out-of-specification result of the study and its investigation. */
+  investigations: Investigation[];
   today: string;
 }
 
@@ -293,11 +328,16 @@ export interface BenchSample {
   lotCode: string;
   variantCode: string;
   recorded: number;
+  /** Failing results here not yet re-measured or confirmed at the bench. */
+  unconfirmed: number;
 }
 
 export interface BenchCheckpoint {
   id: number;
+  kind: CheckpointKind;
   label: string;
+  /** A control reading: the pulls of other conditions it is read beside ("45 °C oven Week 4"). */
+  serves: string[];
   dueDate: string;
   windowStart: string;
   windowEnd: string;
@@ -309,9 +349,11 @@ export interface BenchCheckpoint {
 }
 
 export interface BenchCondition {
-  id: number;
+  /** Null for the initial test (retained samples, in no condition). */
+  id: number | null;
   name: string;
-  kind: ConditionKind;
+  kind: ConditionKind | null;
+  role: ConditionRole | null;
   setpointC: number | null;
   checkpoints: BenchCheckpoint[];
 }

@@ -21,7 +21,7 @@ beforeAll(async () => {
   cat = await makeCatalogue(t.db, t.labs[0].id);
   // Started 13 weeks ago: every 12-week checkpoint has come due.
   const start = addDays(localDateInZone(new Date(), 'Europe/Berlin'), -91);
-  const offsets = [{ unit: 'day' as const, n: 0 }, W(1), W(2), W(4), W(8), W(12)];
+  const offsets = [W(1), W(2), W(4), W(8), W(12)]; // after the study's initial test
   const draft = await formulator.post('/api/studies', {
     productId: cat.productId,
     title: 'Analysis study',
@@ -41,7 +41,7 @@ beforeAll(async () => {
   const [ph, sep] = study.attributes.map((a: { id: number }) => a.id);
   // Variant A holds at 45 °C; variant B separates at week 8 (grade 3). Invented test data.
   for (const cp of study.checkpoints) {
-    for (const s of study.samples.filter((x: { studyConditionId: number }) => x.studyConditionId === cp.studyConditionId)) {
+    for (const s of study.samples.filter((x: { studyConditionId: number | null }) => x.studyConditionId === cp.studyConditionId)) {
       const isB = s.batchId === cat.batchIds[1];
       const oven = cp.studyConditionId === study.conditions[1].id;
       const weeks = cp.offset.unit === 'week' ? cp.offset.n : 0;

@@ -47,7 +47,8 @@ describe('the demo lab', () => {
     for (const p of photos) {
       const full = await technician.get(`/api/photos/${p.id}`);
       expect(full.status).toBe(200);
-      expect(full.headers['content-type']).toBe('image/jpeg');
+      expect(full.headers['content-type']).toBe('image/webp'); // the display copy, made on first view for the demo's photos
+      expect((await technician.get(`/api/photos/${p.id}/original`)).headers['content-type']).toBe('image/jpeg');
       expect((await technician.get(`/api/photos/${p.id}/thumb`)).headers['content-type']).toBe('image/webp');
     }
     // Taken at their checkpoints, not all at the moment the demo was loaded.
@@ -87,5 +88,41 @@ describe('the demo lab', () => {
     const current = review.body.review.decisions.filter((d: { supersededById: number | null }) => d.supersededById == null);
     expect(current.length).toBeGreaterThan(0);
     expect(current.every((d: { coversCurrentData: boolean }) => d.coversCurrentData)).toBe(true);
+  });
+
+  it('every study has one initial test per batch, and every pull is paired with a same-day control reading', async () => {
+    for (const s of studies) {
+      const d = (await formulator.get(`/api/studies/${s.id}`)).body.study;
+      const initial = d.checkpoints.filter((c: { kind: string }) => c.kind === 'initial');
+      expect(initial, s.title).toHaveLength(1);
+      expect(d.checkpoints.some((c: { kind: string; label: string }) => c.kind === 'pull' && c.label === 'Day 0'), s.title).toBe(false);
+      const retained = d.samples.filter((x: { studyConditionId: number | null }) => x.studyConditionId == null);
+      expect(retained.map((x: { batchId: number }) => x.batchId).sort(), s.title).toEqual(d.batches.map((b: { id: number }) => b.id).sort());
+      const control = d.conditions.find((c: { role: string }) => c.role === 'control');
+      const byId = new Map(d.checkpoints.map((c: { id: number }) => [c.id, c]));
+      for (const cp of d.checkpoints.filter((c: { kind: string; studyConditionId: number }) => c.kind === 'pull' && c.studyConditionId !== control.id)) {
+        const paired = byId.get(cp.controlCheckpointId) as { dueDate: string; studyConditionId: number | null } | undefined;
+        expect(paired, `${s.title} ${cp.label}`).toBeTruthy();
+        expect(paired!.dueDate).toBe(cp.dueDate);
+      }
+    }
+  });
+
+  it('shows one closed and one open out-of-specification investigation, and nothing fails without one', async () => {
+    const s = byTitle('A vs B');
+    const d = (await formulator.get(`/api/studies/${s.id}`)).body.study;
+    const statuses = d.investigations.map((i: { status: string }) => i.status);
+    expect(statuses.filter((x: string) => x === 'closed').length).toBeGreaterThanOrEqual(1);
+    expect(statuses.filter((x: string) => x === 'open')).toHaveLength(1);
+    const open = d.investigations.find((i: { status: string }) => i.status === 'open');
+    expect(open).toMatchObject({ benchStep: 'remeasured', attribute: { name: expect.stringMatching(/viscosity/i) } });
+    // Every failing reading of every demo study has its investigation.
+    for (const st of studies) {
+      const a = (await formulator.get(`/api/studies/${st.id}/analysis`)).body.analysis as StudyAnalysis;
+      const failing = new Set(a.series.flatMap((x) => x.points.filter((p) => p.verdict === 'fail').map((p) => `${p.sampleCode}:${p.checkpointId}:${x.studyAttributeId}`)));
+      const inv = (await formulator.get(`/api/studies/${st.id}/investigations`)).body.investigations as { sampleCode: string; checkpoint: { id: number }; attribute: { id: number } }[];
+      expect(new Set(inv.map((i) => `${i.sampleCode}:${i.checkpoint.id}:${i.attribute.id}`)), st.title).toEqual(failing);
+    }
+    expect((await formulator.get('/api/notifications')).body.unread).toBeGreaterThan(0);
   });
 });

@@ -33,16 +33,19 @@ describe('morning digest content', () => {
     const cat = await makeCatalogue(t.db, t.labs[0].id);
     const today = localDateInZone(new Date(), 'Europe/Berlin');
     const plan = { ...planFor(cat, addDays(today, -8)), responsibleId: t.labs[0].members[DEMO.technician] };
-    plan.conditions[0].offsets = [{ unit: 'day', n: 0 }, { unit: 'day', n: 8 }, { unit: 'day', n: 10 }, { unit: 'day', n: 20 }];
+    plan.conditions[0].offsets = [{ unit: 'day', n: 8 }, { unit: 'day', n: 10 }, { unit: 'day', n: 20 }];
+    plan.conditions[1].offsets = [{ unit: 'day', n: 20 }];
     const id = (await formulator.post('/api/studies', plan)).body.study.id;
     const study = (await formulator.post(`/api/studies/${id}/start`)).body.study;
     const mail = await buildDigest(t.db, member(DEMO.technician, 'technician'), today, ctx);
     expect(mail).not.toBeNull();
     const fridgeSamples = study.samples.filter((s: { studyConditionId: number }) => s.studyConditionId === study.conditions[0].id);
     expect(mail!.text).toContain('fridge 1');
-    expect(mail!.text).toContain('overdue'); // day 0, window closed
-    expect(mail!.text).toContain('due today'); // day 8
-    expect(mail!.text).toContain('coming up'); // day 10 is within the next two days
+    const text = mail!.text!.replace(/\s+/g, ' ');
+    expect(mail!.text).toContain('Initial test (before storage)'); // the retained samples' initial test, window closed
+    expect(text).toContain('overdue');
+    expect(text).toContain('due today'); // day 8
+    expect(text).toContain('coming up'); // day 10 is within the next two days
     expect(mail!.text).not.toContain('Day 20');
     expect(mail!.html).toContain(`http://127.0.0.1:3000/samples/${fridgeSamples[0].code}`);
     expect(mail!.html).not.toMatch(/<img/i); // no tracking pixels or remote images

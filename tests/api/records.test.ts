@@ -17,8 +17,8 @@ let cat: Catalogue;
 
 interface Study {
   id: number;
-  samples: { id: number; code: string; studyConditionId: number; batchId: number }[];
-  checkpoints: { id: number; label: string; studyConditionId: number; state: string }[];
+  samples: { id: number; code: string; studyConditionId: number | null; batchId: number }[];
+  checkpoints: { id: number; label: string; kind: string; studyConditionId: number | null; state: string; dueDate: string }[];
   conditions: { id: number; role: string }[];
   attributes: { id: number; code: string }[];
 }
@@ -41,7 +41,7 @@ beforeAll(async () => {
 });
 afterAll(async () => t?.close());
 
-/** A running study started 7 days ago: day 0 (late but open), week 1 (due today), week 4 (not open yet). */
+/** A running study started 7 days ago: the initial test (late but open), week 1 (due today), week 4 (not open yet). */
 async function startStudy(): Promise<Study> {
   const plan = planFor(cat, addDays(today(), -7));
   plan.attributes = [
@@ -61,6 +61,9 @@ async function startStudy(): Promise<Study> {
 const attr = (s: Study, code: string) => s.attributes.find((a) => a.code === code)!.id;
 const cp = (s: Study, label: string, cond = 1) => s.checkpoints.find((c) => c.label === label && c.studyConditionId === s.conditions[cond].id)!;
 const sampleIn = (s: Study, cond = 1, i = 0) => s.samples.filter((x) => x.studyConditionId === s.conditions[cond].id)[i];
+/** The study's one initial test, and a batch's retained sample for it (batch i). */
+const initial = (s: Study) => s.checkpoints.find((c) => c.kind === 'initial')!;
+const retained = (s: Study, i = 0) => s.samples.filter((x) => x.studyConditionId == null)[i];
 
 function fullEntries(s: Study, v: { ph: number; viscosity: number; separation: number; odor: string; pack: boolean; mass: number }) {
   return [
@@ -76,19 +79,21 @@ function fullEntries(s: Study, v: { ph: number; viscosity: number; separation: n
 const put = (c: Client, code: string, cpId: number, body: object) => c.put(`/api/samples/${code}/checkpoints/${cpId}/observations`, body);
 
 describe('recording a checkpoint', () => {
-  it('records day 0, evaluates every criterion kind on the server, and closes the checkpoint when complete', async () => {
-    const day0 = cp(study, 'Day 0');
-    for (const [i, s] of study.samples.filter((x) => x.studyConditionId === study.conditions[1].id).entries()) {
+  it('records the initial test, evaluates every criterion kind on the server, and closes the checkpoint when complete', async () => {
+    const day0 = initial(study);
+    for (const [i, s] of study.samples.filter((x) => x.studyConditionId == null).entries()) {
       const res = await put(technician, s.code, day0.id, { entries: fullEntries(study, { ph: 5.3 + i * 0.1, viscosity: 12000, separation: 0, odor: 'no_change', pack: true, mass: 52 }) });
       expect(res.status, JSON.stringify(res.body)).toBe(200);
     }
-    const sheet = (await technician.get(`/api/samples/${sampleIn(study).code}/checkpoints/${day0.id}`)).body.sheet;
+    const sheet = (await technician.get(`/api/samples/${retained(study).code}/checkpoints/${day0.id}`)).body.sheet;
+    expect(sheet.sample.condition).toBeNull(); // a retained sample, in no condition
+    expect(sheet.controlReading).toBeNull();
     expect(sheet.checkpoint.state).toBe('done');
     expect(sheet.attributes.every((a: { current: { verdict: string } }) => a.current.verdict === 'pass')).toBe(true);
     expect(sheet.attributes.find((a: { attribute: { code: string } }) => a.attribute.code === 'viscosity').current.method).toEqual({ spindle: 'RV-5', speed: 10, temperature: 25 });
   });
 
-  it('judges week 1 against day 0: pass and fail at each kind (common-practice criteria)', async () => {
+  it('judges week 1 against the batch\'s initial test: pass and fail at each kind (common-practice criteria)', async () => {
     const w1 = cp(study, 'Week 1');
     const s = sampleIn(study);
     const res = await put(technician, s.code, w1.id, {
@@ -102,8 +107,8 @@ describe('recording a checkpoint', () => {
     expect(byCode.odor.verdict).toBe('fail'); // marked, worst allowed slight
     expect(byCode.pack_integrity.verdict).toBe('fail');
     expect(byCode.mass.verdict).toBe('fail'); // above 60
-    expect(res.body.sheet.attributes[0].baseline).toMatchObject({ value: 5.3, label: 'Day 0' });
-    expect(res.body.sheet.attributes[0].previous).toMatchObject({ value: 5.3, label: 'Day 0' });
+    expect(res.body.sheet.attributes[0].baseline).toEqual({ value: 5.3, label: 'Initial', sampleCode: retained(study, 0).code });
+    expect(res.body.sheet.attributes[0].previous).toBeNull(); // this jar's first pull
     // The walk through the checkpoint's samples: this one is complete, the next is not yet.
     const s2 = sampleIn(study, 1, 1);
     expect(res.body.sheet.siblings).toEqual(expect.arrayContaining([{ code: s.code, complete: true }, { code: s2.code, complete: false }]));
@@ -112,7 +117,9 @@ describe('recording a checkpoint', () => {
       entries: fullEntries(study, { ph: 5.8, viscosity: 10000, separation: 1, odor: 'slight', pack: true, mass: 40 }),
     });
     const ok2 = Object.fromEntries(ok.body.sheet.attributes.map((a: { attribute: { code: string }; current: { verdict: string } }) => [a.attribute.code, a.current.verdict]));
-    // pH 5.8 vs its own day 0 of 5.4: 0.4 passes; viscosity -16.7 % passes; boundaries pass.
+    // pH 5.8 vs its batch's initial 5.4: 0.4 passes; viscosity -16.7 % passes; boundaries pass.
+    expect(ok.body.sheet.attributes[0].baseline).toMatchObject({ label: 'Initial', sampleCode: retained(study, 1).code });
+    expect(ok.body.sheet.attributes[0].baseline.value).toBeCloseTo(5.4, 12);
     expect(ok2).toEqual({ ph: 'pass', viscosity: 'pass', separation: 'pass', odor: 'pass', pack_integrity: 'pass', mass: 'pass' });
     expect(ok.body.sheet.siblings.filter((x: { complete: boolean }) => x.complete).map((x: { code: string }) => x.code).sort()).toEqual([s.code, s2.code].sort());
     const [audits] = await t.db.select({ n: sql<number>`count(*)` }).from(auditLog).where(eq(auditLog.entity, 'observation'));
@@ -142,23 +149,29 @@ describe('recording a checkpoint', () => {
 });
 
 describe('the control value beside compared attributes', () => {
-  it('is the control reading up to this checkpoint, not a later one; a control sample gets none, and the sheet names its condition', async () => {
+  it('is the control read the same day (the pull\'s paired control reading), not a later or earlier one; a control sample gets none', async () => {
     const s4 = await startStudy();
     const [fridge, oven] = [0, 1].map((c) => s4.samples.find((x) => x.studyConditionId === s4.conditions[c].id && x.batchId === cat.batchIds[0])!);
     const odor = (v: string) => ({ entries: [{ studyAttributeId: attr(s4, 'odor'), value: v }] });
-    expect((await put(technician, fridge.code, cp(s4, 'Day 0', 0).id, odor('no_change'))).status).toBe(200);
-    // Week 4 is three weeks ahead: a formulator records it early, as if read later than week 1.
+    // Week 4 is three weeks ahead: a formulator records the control early, as if read later than week 1.
     expect((await put(formulator, fridge.code, cp(s4, 'Week 4', 0).id, { ...odor('slight'), allowEarly: true })).status).toBe(200);
     const odorOf = (sheet: { attributes: { attribute: { code: string }; control: unknown }[] }) => sheet.attributes.find((a) => a.attribute.code === 'odor')!;
 
-    const w1 = (await technician.get(`/api/samples/${oven.code}/checkpoints/${cp(s4, 'Week 1').id}`)).body.sheet;
-    expect(odorOf(w1).control).toEqual({ value: 'no_change', label: 'Day 0', sampleCode: fridge.code });
+    // The oven's week 1 is paired with the fridge's week 1, not yet read: no control value, and the sheet says which to read first.
+    let w1 = (await technician.get(`/api/samples/${oven.code}/checkpoints/${cp(s4, 'Week 1').id}`)).body.sheet;
+    expect(odorOf(w1).control).toBeNull();
+    expect(w1.controlReading).toEqual({ checkpointId: cp(s4, 'Week 1', 0).id, label: 'Week 1', dueDate: cp(s4, 'Week 1', 0).dueDate, sampleCode: fridge.code, recorded: false, initial: false });
+    expect((await put(technician, fridge.code, cp(s4, 'Week 1', 0).id, odor('no_change'))).status).toBe(200);
+    w1 = (await technician.get(`/api/samples/${oven.code}/checkpoints/${cp(s4, 'Week 1').id}`)).body.sheet;
+    expect(odorOf(w1).control).toEqual({ value: 'no_change', label: 'Week 1', sampleCode: fridge.code, sameDay: true });
+    expect(w1.controlReading.recorded).toBe(true);
     const w4 = (await technician.get(`/api/samples/${oven.code}/checkpoints/${cp(s4, 'Week 4').id}`)).body.sheet;
-    expect(odorOf(w4).control).toEqual({ value: 'slight', label: 'Week 4', sampleCode: fridge.code });
+    expect(odorOf(w4).control).toEqual({ value: 'slight', label: 'Week 4', sampleCode: fridge.code, sameDay: true });
     expect(w4.sample.condition).toMatchObject({ kind: 'constant', setpointC: 45, role: 'accelerated' });
 
     const own = (await technician.get(`/api/samples/${fridge.code}/checkpoints/${cp(s4, 'Week 1', 0).id}`)).body.sheet;
     expect(own.sample.condition).toMatchObject({ role: 'control', setpointC: 4 });
+    expect(own.controlReading).toBeNull();
     expect(own.attributes.every((a: { control: unknown }) => a.control === null)).toBe(true);
   });
 });
@@ -237,27 +250,27 @@ describe('corrections, voids and locking', () => {
   });
 
   it('a void keeps the entry and its history, and reopens a complete checkpoint', async () => {
-    const day0 = cp(study, 'Day 0');
-    const sheet = (await technician.get(`/api/samples/${sampleIn(study).code}/checkpoints/${day0.id}`)).body.sheet;
+    const day0 = initial(study);
+    const sheet = (await technician.get(`/api/samples/${retained(study).code}/checkpoints/${day0.id}`)).body.sheet;
     const mass = sheet.attributes.find((a: { attribute: { code: string } }) => a.attribute.code === 'mass').current;
     const res = await technician.post(`/api/observations/${mass.id}/void`, { reason: 'Weighed the wrong jar' });
     expect(res.status).toBe(200);
     expect(res.body.history.at(-1)).toMatchObject({ value: null, reason: 'Voided' });
     const [row] = await t.db.select().from(observations).where(eq(observations.id, mass.id));
     expect(row).toMatchObject({ voided: true, valueNum: 52 });
-    const after = (await technician.get(`/api/samples/${sampleIn(study).code}/checkpoints/${day0.id}`)).body.sheet;
+    const after = (await technician.get(`/api/samples/${retained(study).code}/checkpoints/${day0.id}`)).body.sheet;
     expect(after.checkpoint.state).not.toBe('done');
   });
 
   it('once in review, only an owner corrects, and that is recorded as reopening review', async () => {
     const s2 = await startStudy();
-    const day0 = cp(s2, 'Day 0');
-    await put(technician, sampleIn(s2).code, day0.id, { entries: [{ studyAttributeId: attr(s2, 'ph'), value: 5.5 }] });
+    const day0 = initial(s2);
+    await put(technician, retained(s2).code, day0.id, { entries: [{ studyAttributeId: attr(s2, 'ph'), value: 5.5 }] });
     await t.db.update(studies).set({ status: 'in_review' }).where(eq(studies.id, s2.id));
-    const sheet = (await technician.get(`/api/samples/${sampleIn(s2).code}/checkpoints/${day0.id}`)).body.sheet;
+    const sheet = (await technician.get(`/api/samples/${retained(s2).code}/checkpoints/${day0.id}`)).body.sheet;
     expect(sheet.locked).toBe(true);
     const obsId = sheet.attributes[0].current.id;
-    expect((await put(technician, sampleIn(s2).code, day0.id, { entries: [{ studyAttributeId: attr(s2, 'mass'), value: 50 }] })).status).toBe(409);
+    expect((await put(technician, retained(s2).code, day0.id, { entries: [{ studyAttributeId: attr(s2, 'mass'), value: 50 }] })).status).toBe(409);
     expect((await formulator.post(`/api/observations/${obsId}/corrections`, { value: 5.6, reason: 'Typo' })).status).toBe(403);
     expect((await owner.post(`/api/observations/${obsId}/corrections`, { value: 5.6, reason: 'Typo found in review' })).status).toBe(200);
     const reopened = await t.db.select().from(auditLog).where(eq(auditLog.reason, 'Observation corrected after review began: Typo found in review'));
@@ -286,7 +299,8 @@ describe('the audit trail is append-only for the app account', () => {
     const res = await owner.get(`/api/audit?studyId=${study.id}`);
     expect(res.status).toBe(200);
     expect(res.body.rows.length).toBeGreaterThan(20);
-    expect(res.body.rows.every((r: { entity: string }) => ['study', 'observation', 'photo'].includes(r.entity))).toBe(true);
+    // The study, its readings and photos, and the out-of-specification investigations its failing readings opened.
+    expect(res.body.rows.every((r: { entity: string }) => ['study', 'observation', 'photo', 'oos_investigation'].includes(r.entity))).toBe(true);
     const byPerson = await owner.get(`/api/audit?userId=${t.labs[0].members[DEMO.technician]}&from=2020-01-01&to=2099-12-31`);
     expect(byPerson.body.rows.length).toBeGreaterThan(0);
     const csv = await owner.get(`/api/audit.csv?studyId=${study.id}`);
@@ -294,7 +308,7 @@ describe('the audit trail is append-only for the app account', () => {
     expect(csv.text.split('\r\n')[0]).toBe('time_utc,who,action,entity,entity_id,old_value,new_value,reason');
     expect((await formulator.get('/api/audit')).status).toBe(403);
     expect((await technician.get('/api/audit.csv')).status).toBe(403);
-    expect((await otherOwner.get(`/api/audit?studyId=${study.id}`)).body.rows).toEqual([]);
+    expect((await otherOwner.get(`/api/audit?studyId=${study.id}`)).status).toBe(404); // another lab's study, as everywhere
     expect((await owner.get('/api/audit?from=yesterday')).status).toBe(400);
   });
 });
@@ -317,7 +331,8 @@ describe('photos', () => {
     expect(res.body.photos).toHaveLength(3);
     const p = res.body.photos[0];
     const img = await technician.get(p.url);
-    expect(img.headers['content-type']).toBe('image/jpeg');
+    expect(img.headers['content-type']).toBe('image/webp'); // the display copy (tests/api/photos.test.ts)
+    expect((await technician.get(p.originalUrl)).headers['content-type']).toBe('image/jpeg');
     expect(img.headers['x-content-type-options']).toBe('nosniff');
     const thumb = await technician.get(p.thumbUrl);
     expect(thumb.headers['content-type']).toBe('image/webp');

@@ -23,13 +23,13 @@ beforeAll(async () => {
 });
 afterAll(async () => t?.close());
 
-/** A running study with day 0 recorded for every sample; later checkpoints still open. */
+/** A running study with its initial test recorded for every batch; the pulls still open. */
 async function runningStudy() {
   const plan = planFor(cat, addDays(localDateInZone(new Date(), 'Europe/Berlin'), -3));
   const id = (await formulator.post('/api/studies', plan)).body.study.id;
   const study = (await formulator.post(`/api/studies/${id}/start`)).body.study;
-  for (const cp of study.checkpoints.filter((c: { label: string }) => c.label === 'Day 0')) {
-    for (const s of study.samples.filter((x: { studyConditionId: number }) => x.studyConditionId === cp.studyConditionId)) {
+  for (const cp of study.checkpoints.filter((c: { kind: string }) => c.kind === 'initial')) {
+    for (const s of study.samples.filter((x: { studyConditionId: number | null }) => x.studyConditionId == null)) {
       await technician.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, {
         entries: study.attributes.map((a: { id: number; code: string }) => ({
           studyAttributeId: a.id,
@@ -267,7 +267,36 @@ describe('observations export', () => {
     expect(res.status).toBe(200);
     const lines = res.text.trim().split('\r\n');
     expect(lines[0]).toMatch(/^sample,variant,lot,condition,checkpoint,due_date,attribute,unit,value,verdict/);
-    expect(lines).toHaveLength(1 + 4 * 3); // 4 samples x 3 attributes at day 0
+    expect(lines).toHaveLength(1 + 2 * 3); // 2 retained samples (one per batch) x 3 attributes at the initial test
+    expect(lines[1]).toMatch(/^[A-Z0-9]{6},A,T\d+-A,Initial test,Initial,/);
     expect((await otherOwner.get(`/api/studies/${id}/observations.csv`)).status).toBe(404);
+  });
+
+  it('writes numbers as numbers (-1.5 stays -1.5) and guards only text cells against formulas', async () => {
+    // Guard per OWASP "CSV Injection": text starting with =, +, -, @, tab or CR gets a leading apostrophe.
+    const plan = {
+      ...planFor(cat, addDays(localDateInZone(new Date(), 'Europe/Berlin'), -7)),
+      attributes: [
+        { attributeId: cat.attributeIds.color_a, criterion: { kind: 'none' as const } },
+        { attributeId: cat.attributeIds.note, criterion: { kind: 'none' as const } },
+      ],
+    };
+    const id = (await formulator.post('/api/studies', plan)).body.study.id;
+    const study = (await formulator.post(`/api/studies/${id}/start`)).body.study;
+    const cp = study.checkpoints.find((c: { label: string; studyConditionId: number | null }) => c.label === 'Week 1' && c.studyConditionId === study.conditions[0].id);
+    const sample = study.samples.find((x: { studyConditionId: number | null }) => x.studyConditionId === cp.studyConditionId);
+    const attr = (code: string) => study.attributes.find((a: { code: string }) => a.code === code).id;
+    const put = await technician.put(`/api/samples/${sample.code}/checkpoints/${cp.id}/observations`, {
+      entries: [
+        { studyAttributeId: attr('color_a'), value: -1.5 },
+        { studyAttributeId: attr('note'), value: '=SUM(A1)' },
+      ],
+    });
+    expect(put.status, JSON.stringify(put.body)).toBe(200);
+    const lines = (await technician.get(`/api/studies/${id}/observations.csv`)).text.trim().split('\r\n');
+    const valueIndex = lines[0].split(',').indexOf('value');
+    const valueOf = (code: string) => lines.find((l) => l.split(',')[6] === code)!.split(',')[valueIndex];
+    expect(valueOf('color_a')).toBe('-1.5');
+    expect(valueOf('note')).toBe("'=SUM(A1)");
   });
 });

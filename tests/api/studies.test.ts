@@ -72,9 +72,10 @@ describe('plan, preview and start', () => {
     const res = await formulator.post('/api/studies/preview', plan);
     expect(res.status).toBe(200);
     const p = res.body.preview;
-    expect(p.sampleCount).toBe(4); // 2 batches x 2 conditions x 1
-    expect(p.gramsPerBatch).toBe(90); // 2 conditions x 1 sample x 45 g
-    expect(p.perCondition[0].checkpoints.map((c: { dueDate: string }) => c.dueDate)).toEqual(['2026-11-02', '2026-11-09', '2026-11-30']);
+    expect(p.sampleCount).toBe(6); // 2 batches x (2 conditions + the retained sample for the initial test) x 1
+    expect(p.gramsPerBatch).toBe(135); // 3 containers x 45 g
+    expect(p.initial).toMatchObject({ label: 'Initial', dueDate: '2026-11-02', windowEnd: '2026-11-03', samples: 2 });
+    expect(p.perCondition[0].checkpoints.map((c: { dueDate: string }) => c.dueDate)).toEqual(['2026-11-09', '2026-11-30']);
     expect(p.cautions.join(' ')).toMatch(/heat-resistant gloves/);
     expect(p.cautions.at(-1)).toMatch(/local regulations/);
     const noControl = await formulator.post('/api/studies/preview', { ...plan, conditions: [plan.conditions[1]], startDate: '2026-11-07' });
@@ -91,6 +92,7 @@ describe('plan, preview and start', () => {
     const plan = planFor(cat);
     const res = await formulator.post('/api/studies/preview', {
       ...plan,
+      // A centrifuge test is itself done at the start: the one condition that keeps a day 0.
       conditions: [...plan.conditions, { conditionId: spin, role: 'stress', template: 'custom', offsets: [{ unit: 'day', n: 0 }] }],
     });
     expect(res.status, JSON.stringify(res.body)).toBe(200);
@@ -111,11 +113,13 @@ describe('plan, preview and start', () => {
     expect(res.status).toBe(200);
     const study = res.body.study;
     expect(study.status).toBe('running');
-    expect(study.samples).toHaveLength(4);
-    expect(new Set(study.samples.map((x: { code: string }) => x.code)).size).toBe(4);
+    expect(study.samples).toHaveLength(6);
+    expect(new Set(study.samples.map((x: { code: string }) => x.code)).size).toBe(6);
     for (const x of study.samples) expect(x.code).toMatch(/^[2-9A-HJKMNP-TV-Z]{6}$/);
-    expect(study.checkpoints).toHaveLength(6);
-    expect(study.checkpoints[0]).toMatchObject({ label: 'Day 0', dueDate: '2026-11-02', expected: 6 });
+    // One initial test for the study (its samples: one retained sample per batch), then 2 pulls per condition.
+    expect(study.samples.filter((x: { studyConditionId: number | null }) => x.studyConditionId == null)).toHaveLength(2);
+    expect(study.checkpoints).toHaveLength(5);
+    expect(study.checkpoints[0]).toMatchObject({ kind: 'initial', label: 'Initial', studyConditionId: null, dueDate: '2026-11-02', expected: 6 });
     const audits = await t.db
       .select()
       .from(auditLog)
@@ -128,9 +132,9 @@ describe('plan, preview and start', () => {
     const [a, b] = await Promise.all([formulator.post(`/api/studies/${s.id}/start`), owner.post(`/api/studies/${s.id}/start`)]);
     expect([a.status, b.status].sort()).toEqual([200, 409]);
     const [row] = await t.db.select({ n: sql<number>`count(*)` }).from(samples).where(eq(samples.studyId, s.id));
-    expect(Number(row.n)).toBe(4);
+    expect(Number(row.n)).toBe(6);
     const [cps] = await t.db.select({ n: sql<number>`count(*)` }).from(checkpoints).where(eq(checkpoints.studyId, s.id));
-    expect(Number(cps.n)).toBe(6);
+    expect(Number(cps.n)).toBe(5);
   });
 
   it('freeze-thaw checkpoints are dated by cycle length (24 h + 24 h)', async () => {
@@ -266,8 +270,8 @@ describe('Bench and missed windows', () => {
     const today = labToday();
     const plan = planFor(cat, addDays(today, -10));
     plan.title = 'Bench study';
-    plan.conditions[0].offsets = [{ unit: 'day', n: 0 }, { unit: 'day', n: 10 }, { unit: 'day', n: 13 }, { unit: 'day', n: 30 }];
-    plan.conditions[1].offsets = [{ unit: 'day', n: 0 }];
+    plan.conditions[0].offsets = [{ unit: 'day', n: 10 }, { unit: 'day', n: 13 }, { unit: 'day', n: 30 }];
+    plan.conditions[1].offsets = [{ unit: 'day', n: 30 }];
     const s = await draft(plan);
     await formulator.post(`/api/studies/${s.id}/start`);
 
@@ -277,7 +281,9 @@ describe('Bench and missed windows', () => {
       g.conditions.flatMap((c) => c.checkpoints.filter((cp) => cp.study.id === s.id).map((cp) => ({ location: g.location, ...cp }))),
     );
     const byLabel = Object.fromEntries(mine.map((m: { label: string }) => [m.label, m]));
-    expect(byLabel['Day 0'].state).toBe('overdue'); // day 0 window closed 9 days ago
+    expect(byLabel['Initial'].state).toBe('overdue'); // the initial test's window closed 9 days ago
+    expect(byLabel['Initial'].location).toBe('Initial test (before storage)');
+    expect(byLabel['Initial'].samples).toHaveLength(2); // the retained samples, one per batch
     expect(byLabel['Day 10'].state).toBe('due');
     expect(byLabel['Day 13'].state).toBe('upcoming');
     expect(byLabel['Day 30']).toBeUndefined(); // beyond the next 7 days
@@ -287,7 +293,7 @@ describe('Bench and missed windows', () => {
 
     const tooEarly = await technician.post(`/api/checkpoints/${byLabel['Day 10'].id}/missed`, { reason: 'Oven was busy' });
     expect(tooEarly.status).toBe(409);
-    const missed = await technician.post(`/api/checkpoints/${byLabel['Day 0'].id}/missed`, { reason: 'Lab closed for flooding' });
+    const missed = await technician.post(`/api/checkpoints/${byLabel['Initial'].id}/missed`, { reason: 'Lab closed for flooding' });
     expect(missed.status).toBe(200);
     expect(missed.body.checkpoint).toMatchObject({ state: 'missed', missedReason: 'Lab closed for flooding' });
     const noReason = await technician.post(`/api/checkpoints/${byLabel['Day 10'].id}/missed`, {});
@@ -306,13 +312,17 @@ describe('labels and the sample page', () => {
     const study = (await formulator.post(`/api/studies/${s.id}/start`)).body.study;
     const res = await technician.get(`/api/studies/${s.id}/labels`);
     expect(res.status).toBe(200);
-    expect(res.body.labels).toHaveLength(4);
-    const first = res.body.labels[0];
+    expect(res.body.labels).toHaveLength(6);
+    expect(res.body.labels.slice(0, 2).map((l: { condition: string }) => l.condition)).toEqual(['Initial test · retained', 'Initial test · retained']);
+    const first = res.body.labels[2];
     expect(first.url).toMatch(new RegExp(`/samples/${first.code}$`));
     expect(first).toMatchObject({ lotCode: expect.stringMatching(/^T\d+-A$/), startDate: '2026-11-02' });
     const page = await technician.get(`/api/samples/${first.code.toLowerCase()}`);
     expect(page.status).toBe(200);
-    expect(page.body.sample.checkpoints).toHaveLength(3);
+    expect(page.body.sample.checkpoints).toHaveLength(2);
+    const retained = await technician.get(`/api/samples/${res.body.labels[0].code}`);
+    expect(retained.body.sample).toMatchObject({ retained: true, condition: null });
+    expect(retained.body.sample.checkpoints.map((c: { label: string }) => c.label)).toEqual(['Initial']);
     expect(page.body.sample.study.id).toBe(study.id);
     expect((await technician.get('/api/samples/ZZZZZZ')).status).toBe(404);
   });

@@ -120,7 +120,7 @@ export function benchScenario(): Scenario {
       const mainQuery = benchCheckpointsQuery(ctx.db, lab.id, until);
       main = mainQuery.toSQL();
       const cps = await mainQuery;
-      const scIds = [...new Set(cps.map((x) => x.cp.studyConditionId))];
+      const scIds = [...new Set(cps.flatMap((x) => (x.cp.studyConditionId == null ? [] : [x.cp.studyConditionId])))];
       const studyIds = [...new Set(cps.map((x) => x.cp.studyId))];
       details = benchDetailQueries(ctx.db, lab.id, scIds, studyIds, cps.map((x) => x.cp.id)).map((q) => q.toSQL());
     },

@@ -23,7 +23,6 @@ let today: string;
 
 const W = (n: number) => ({ unit: 'week' as const, n });
 const C = (n: number) => ({ unit: 'cycle' as const, n });
-const DAY0 = { unit: 'day' as const, n: 0 };
 
 beforeAll(async () => {
   rig = await startBrowserRig();
@@ -31,7 +30,7 @@ beforeAll(async () => {
   cat = await makeCatalogue(rig.t.db, rig.t.labs[0].id, 'Calendula hand cream');
   today = ((await formulator.get('/api/bench?days=7')).body as BenchResponse).today;
   const start = addDays(today, -91);
-  const weekly = [DAY0, W(1), W(2), W(4), W(8), W(12)];
+  const weekly = [W(1), W(2), W(4), W(8), W(12)];
   const a = cat.attributeIds;
   const created = await formulator.post('/api/studies', {
     productId: cat.productId,
@@ -42,7 +41,7 @@ beforeAll(async () => {
       { conditionId: cat.conditions.fridge, role: 'control', template: null, offsets: weekly },
       { conditionId: cat.conditions.room, role: 'real_time', template: null, offsets: weekly },
       { conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: weekly },
-      { conditionId: cat.conditions.freezeThaw, role: 'stress', template: null, offsets: [DAY0, C(1), C(2), C(3)] },
+      { conditionId: cat.conditions.freezeThaw, role: 'stress', template: null, offsets: [C(1), C(2), C(3)] },
     ],
     attributes: [
       { attributeId: a.ph, criterion: { kind: 'change_abs', max: 0.5 } },
@@ -64,8 +63,9 @@ beforeAll(async () => {
 
   const roleOf = new Map(study.conditions.map((c) => [c.id, c.role]));
   const ids = Object.fromEntries(study.attributes.map((x) => [x.code, x.id]));
+  // The initial test on the retained samples (no condition; the t = 0 point of every condition), then every pull and paired control reading.
   for (const cp of study.checkpoints) {
-    const role = roleOf.get(cp.studyConditionId);
+    const role = cp.studyConditionId == null ? undefined : roleOf.get(cp.studyConditionId);
     const hot = role === 'accelerated';
     const room = role === 'real_time';
     const ft = role === 'stress';
@@ -205,8 +205,12 @@ describe('Analysis page', () => {
     expect(download.suggestedFilename()).toMatch(/^keepwell-study-\d+-ph-4-c-control-\d+\.csv$/);
     const csv = readFileSync((await download.path())!, 'utf8');
     expect(csv.split('\r\n')[0]).toBe('\uFEFFAttribute,Unit,Variant,Lot,Condition,Checkpoint,Months,Due date,Sample,Value,Verdict,Lower limit,Upper limit');
-    // 2 variants x 2 samples x 6 checkpoints
-    expect(csv.trim().split('\r\n')).toHaveLength(1 + 24);
+    // 2 variants x 2 samples x 9 points: the initial test (t = 0), Weeks 1, 2, 4, 8, 12 and the control
+    // readings paired with the freeze-thaw cycles (days 2, 4 and 6: 24 h low + 24 h high per cycle)
+    const fridgeCps = study.checkpoints.filter((c) => c.studyConditionId === study.conditions[0].id).sort((x, y) => x.dueDate.localeCompare(y.dueDate));
+    expect(fridgeCps.map((c) => c.label)).toEqual(['Day 2', 'Day 4', 'Day 6', 'Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12']);
+    expect(csv.trim().split('\r\n')).toHaveLength(1 + 2 * 2 * 9);
+    expect(csv).toMatch(/,Initial,0(\.0+)?,/);
 
     // group by variant: a panel per variant
     await page.getByTestId('grouping').getByText('A chart per variant').click();

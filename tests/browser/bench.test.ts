@@ -16,6 +16,7 @@ import { makeCatalogue, type Catalogue } from '../helpers/fixtures';
 
 const RESULTS = join(process.cwd(), 'test-results');
 const TABLET_LANDSCAPE = { width: 1180, height: 820 } as const;
+const PHONE = { width: 390, height: 844 } as const;
 
 let rig: BrowserRig;
 let formulator: Client;
@@ -29,15 +30,16 @@ beforeAll(async () => {
   // Products, batches and storage conditions come from their own areas; here straight into the lab.
   cat = await makeCatalogue(rig.t.db, rig.t.labs[0].id, 'Calendula hand cream');
   today = ((await formulator.get('/api/bench?days=7')).body as BenchResponse).today;
-  // Started 8 days ago: Day 0 is overdue, Week 1 (±1 day) is due, Week 2 is upcoming within 7 days.
+  // Started 8 days ago: the initial test (on the retained samples, due the start date) is overdue,
+  // Week 1 (±1 day) is due, Week 2 is upcoming within 7 days; the fridge control is read beside each oven pull.
   const plan = {
     productId: cat.productId,
     title: 'Calendula cream, emulsifier trial',
     startDate: addDays(today, -8),
     batchIds: cat.batchIds,
     conditions: [
-      { conditionId: cat.conditions.fridge, role: 'control', template: null, offsets: [{ unit: 'day', n: 0 }, { unit: 'week', n: 1 }, { unit: 'week', n: 2 }, { unit: 'week', n: 4 }] },
-      { conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: [{ unit: 'day', n: 0 }, { unit: 'week', n: 1 }, { unit: 'week', n: 2 }, { unit: 'week', n: 4 }, { unit: 'week', n: 8 }, { unit: 'week', n: 12 }] },
+      { conditionId: cat.conditions.fridge, role: 'control', template: null, offsets: [{ unit: 'week', n: 1 }, { unit: 'week', n: 2 }, { unit: 'week', n: 4 }] },
+      { conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: [{ unit: 'week', n: 1 }, { unit: 'week', n: 2 }, { unit: 'week', n: 4 }, { unit: 'week', n: 8 }, { unit: 'week', n: 12 }] },
     ],
     attributes: [
       { attributeId: cat.attributeIds.ph, criterion: { kind: 'change_abs', max: 0.5 } },
@@ -83,33 +85,65 @@ async function smallTargets(page: Page, scope: string): Promise<string[]> {
 }
 
 describe('Bench on a tablet', () => {
-  it('a technician sees the work grouped by location, marks a missed window, opens a sample to record and its page', async () => {
+  it('a technician sees the initial test first, the work grouped by location, a control read beside its pull, an unconfirmed OOS, marks a missed window, opens a sample', async () => {
+    // A separation of grade 3 at the oven's Week 1 fails "at worst grade 1": an out-of-specification result nobody has re-measured or confirmed.
+    const technician = await rig.t.signIn(DEMO.technician);
+    const ovenWeek1 = study.checkpoints.find((c) => c.studyConditionId === study.conditions[1].id && c.label === 'Week 1')!;
+    const failing = study.samples.find((s) => s.studyConditionId === study.conditions[1].id)!;
+    const separation = study.attributes.find((a) => a.code === 'separation')!;
+    const saved = await technician.put(`/api/samples/${failing.code}/checkpoints/${ovenWeek1.id}/observations`, { entries: [{ studyAttributeId: separation.id, value: 3 }] });
+    expect(saved.status, JSON.stringify(saved.body)).toBe(200);
+
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const problems = watchPage(page);
     await signIn(page, DEMO.technician);
     await page.waitForSelector('[data-testid^="bench-checkpoint-"]');
 
-    // Grouped by storage location, then condition.
+    // The initial test first (the retained samples, before storage), then by storage location, then condition.
     const locations = await page.locator('.location-name').allTextContents();
+    expect(locations[0]).toBe('Initial test (before storage)');
     expect(locations).toEqual(expect.arrayContaining(['fridge 1', 'oven 2']));
     const oven = page.getByTestId('bench-location-oven 2');
     await expect.poll(() => oven.locator('.condition-head').first().textContent()).toContain('45 °C');
 
-    // The study's checkpoints: Day 0 overdue, Week 1 due, Week 2 upcoming, per condition.
+    // The initial test: one checkpoint for the study, on the 4 retained samples (2 batches x 2), overdue.
+    const initial = study.checkpoints.find((c) => c.kind === 'initial')!;
+    const retained = study.samples.filter((s) => s.studyConditionId == null);
+    expect(retained).toHaveLength(4);
+    const initialCard = page.getByTestId('bench-initial').getByTestId(`bench-checkpoint-${initial.id}`);
+    expect(await initialCard.getAttribute('data-state')).toBe('overdue');
+    expect(await initialCard.textContent()).toContain('Overdue');
+    expect(await initialCard.locator('a.sample').count()).toBe(4);
+    for (const r of retained) expect(await initialCard.getByTestId(`bench-sample-${r.code}`).count()).toBe(1);
+    expect(await page.getByTestId('bench-initial').locator('.condition-head').textContent()).toContain('Retained samples');
+
+    // Pulls: Week 1 due, Week 2 upcoming, per condition; no Day 0 in any condition.
     const ovenCps = study.checkpoints.filter((c) => c.studyConditionId === study.conditions[1].id);
-    const day0 = ovenCps.find((c) => c.label === 'Day 0')!;
+    const fridgeCps = study.checkpoints.filter((c) => c.studyConditionId === study.conditions[0].id);
+    expect(study.checkpoints.filter((c) => c.label === 'Day 0')).toEqual([]);
     const week1 = ovenCps.find((c) => c.label === 'Week 1')!;
     const week2 = ovenCps.find((c) => c.label === 'Week 2')!;
-    expect(await page.getByTestId(`bench-checkpoint-${day0.id}`).getAttribute('data-state')).toBe('overdue');
-    expect(await page.getByTestId(`bench-checkpoint-${day0.id}`).textContent()).toContain('Overdue 8 days');
     expect(await page.getByTestId(`bench-checkpoint-${week1.id}`).getAttribute('data-state')).toBe('due');
     expect(await page.getByTestId(`bench-checkpoint-${week2.id}`).getAttribute('data-state')).toBe('upcoming');
-    expect(await page.getByTestId(`bench-checkpoint-${week1.id}`).textContent()).toContain('16 of 16 readings to record');
-    // Overdue first within a condition.
+    expect(await page.getByTestId(`bench-checkpoint-${week1.id}`).textContent()).toContain('15 of 16 readings to record');
+    // Due first within a condition.
     const order = await oven.locator('[data-testid^="bench-checkpoint-"]').evaluateAll((els) => els.map((e) => e.getAttribute('data-state')));
-    expect(order).toEqual(['overdue', 'due', 'upcoming']);
-    // Counts as text chips: 2 conditions x (Day 0 overdue, Week 1 due, Week 2 upcoming).
-    expect(await page.getByTestId('count-overdue').textContent()).toMatch(/2\s*overdue/);
+    expect(order).toEqual(['due', 'upcoming']);
+
+    // The fridge control's Week 1 is read beside the oven's Week 1 (the same day), and says so.
+    const fridgeWeek1 = fridgeCps.find((c) => c.dueDate === week1.dueDate)!;
+    expect(week1.controlCheckpointId).toBe(fridgeWeek1.id);
+    const serves = page.getByTestId(`bench-checkpoint-${fridgeWeek1.id}`).getByTestId('bench-serves');
+    expect(await serves.textContent()).toMatch(new RegExp(`Read beside:\\s*${study.conditions[1].name} Week 1`));
+    expect(await page.getByTestId(`bench-checkpoint-${week1.id}`).getByTestId('bench-serves').count()).toBe(0);
+
+    // The failing separation saved through the API is marked "Unconfirmed OOS" on its sample, in words.
+    const mark = page.getByTestId(`bench-checkpoint-${week1.id}`).getByTestId(`bench-unconfirmed-${failing.code}`);
+    expect(await mark.textContent()).toContain('Unconfirmed OOS');
+    expect(await page.locator('[data-testid^="bench-unconfirmed-"]').count()).toBe(1);
+
+    // Counts as text chips: the initial test overdue, 2 conditions x (Week 1 due, Week 2 upcoming).
+    expect(await page.getByTestId('count-overdue').textContent()).toMatch(/1\s*overdue/);
     expect(await page.getByTestId('count-due').textContent()).toMatch(/2\s*due today/);
     expect(await page.getByTestId('count-upcoming').textContent()).toMatch(/2\s*in the next 7 days/);
     expect(await smallTargets(page, '.bench')).toEqual([]);
@@ -119,23 +153,27 @@ describe('Bench on a tablet', () => {
     await page.setViewportSize(TABLET_LANDSCAPE);
     await settle(page);
     await page.screenshot({ path: join(SHOTS, 'bench-tablet-landscape.png'), fullPage: true });
+    await page.setViewportSize(PHONE);
+    await settle(page);
+    await page.screenshot({ path: join(SHOTS, 'bench-phone.png'), fullPage: true });
     await page.setViewportSize(VIEWPORTS.tablet);
 
-    // Mark the overdue Day 0 missed: a too-short reason is refused beside the field, then it goes.
-    await page.getByTestId(`mark-missed-${day0.id}`).click();
+    // Mark the overdue initial test missed: a too-short reason is refused beside the field, then it goes.
+    await page.getByTestId(`mark-missed-${initial.id}`).click();
     await page.getByTestId('missed-reason').fill('x');
     await page.getByTestId('missed-save').click();
     await expect.poll(() => page.locator('.el-dialog .el-form-item__error').textContent()).toContain('at least 3 characters');
     const dialogButtons = await page.locator('.el-dialog__footer button').evaluateAll((els) => els.map((e) => Math.round(e.getBoundingClientRect().height)));
     expect(Math.min(...dialogButtons)).toBeGreaterThanOrEqual(48);
     await page.screenshot({ path: join(SHOTS, 'bench-missed-dialog.png') });
-    await page.getByTestId('missed-reason').fill('Oven door fault; samples were out for two days');
+    await page.getByTestId('missed-reason').fill('Balance out of service on the start day; retained samples were not read');
     await page.getByTestId('missed-save').click();
-    await expect.poll(() => page.getByTestId(`bench-checkpoint-${day0.id}`).count()).toBe(0);
-    expect(await page.getByTestId('count-overdue').textContent()).toMatch(/1\s*overdue/);
+    await expect.poll(() => page.getByTestId(`bench-checkpoint-${initial.id}`).count()).toBe(0);
+    expect(await page.getByTestId('bench-initial').count()).toBe(0);
+    expect(await page.getByTestId('count-overdue').textContent()).toMatch(/0\s*overdue/);
 
     // A sample button opens the Record screen for that sample at that checkpoint, which links to the sample page.
-    const sample = study.samples.find((s) => s.studyConditionId === study.conditions[1].id)!;
+    const sample = failing;
     await page.getByTestId(`bench-checkpoint-${week1.id}`).getByTestId(`bench-sample-${sample.code}`).click();
     await page.waitForURL(new RegExp(`/samples/${sample.code}/checkpoints/${week1.id}$`));
     await expect.poll(() => page.getByTestId('record-sample-code').textContent()).toBe(sample.code);
@@ -150,8 +188,8 @@ describe('Bench on a tablet', () => {
     expect(text).toMatch(/Record (Day|Week)/);
     // The 45 °C oven's caution on the sample page too.
     expect(await page.getByTestId('sample-cautions').getByTestId('caution-hot').textContent()).toContain('heat-resistant gloves');
-    expect(await page.getByTestId('sample-checkpoints').locator('li').count()).toBe(6);
-    expect(await page.getByTestId('sample-checkpoints').locator('li[data-state="missed"]').count()).toBe(1);
+    // The oven's five pulls (the initial test belongs to the retained samples).
+    expect(await page.getByTestId('sample-checkpoints').locator('li').count()).toBe(5);
     await settle(page);
     await page.screenshot({ path: join(SHOTS, 'sample-tablet.png'), fullPage: true });
 
@@ -171,19 +209,48 @@ describe('Study page', () => {
     await page.goto(`${rig.baseUrl}/studies/${study.id}`);
     await page.waitForSelector('[data-testid="checkpoint-grid"] table');
     expect(await page.getByTestId('study-title').textContent()).toBe('Calendula cream, emulsifier trial');
-    // Rows are samples, columns checkpoints: 2 batches x 2 replicates per condition.
+    // The initial test first: the 4 retained samples (2 batches x 2) in one "Initial" column, missed on the Bench above.
+    const initialGrid = page.getByTestId('grid-initial');
+    expect(await initialGrid.locator('tbody tr').count()).toBe(4);
+    expect(await initialGrid.locator('thead th').allTextContents()).toEqual(['Retained sample', expect.stringContaining('Initial')]);
+    // Each cell names its state in words, never by color alone.
+    expect(await initialGrid.locator('a.cell').first().textContent()).toContain('Missed');
+    // Rows are samples, columns checkpoints: 2 batches x 2 replicates per condition; no Day 0 in a condition.
     const oven = page.getByTestId(`grid-condition-${study.conditions[1].id}`);
     expect(await oven.locator('tbody tr').count()).toBe(4);
-    expect(await oven.locator('thead th').count()).toBe(1 + 6);
+    expect(await oven.locator('thead th').count()).toBe(1 + 5);
     const states = await oven.locator('tbody tr').first().locator('a.cell').evaluateAll((els) => els.map((e) => e.getAttribute('data-state')));
-    expect(states).toEqual(['missed', 'due', 'upcoming', 'upcoming', 'upcoming', 'upcoming']);
-    // Each cell names its state in words, never by color alone.
-    expect(await oven.locator('tbody tr').first().locator('a.cell').first().textContent()).toContain('Missed');
+    expect(states).toEqual(['due', 'upcoming', 'upcoming', 'upcoming', 'upcoming']);
+    // Each pull names the control reading it is judged beside; the fridge gained readings on the oven's Week 8 and 12.
+    expect(await oven.getByTestId('control-hint').allTextContents()).toEqual(['Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12'].map((w) => `with control ${w}`));
+    const fridge = page.getByTestId(`grid-condition-${study.conditions[0].id}`);
+    expect(await fridge.locator('thead .cp-label').allTextContents()).toEqual(['Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12']);
+    expect(await fridge.getByTestId('control-hint').count()).toBe(0);
+    // The header counts the work due now (a running study): Week 1 in both conditions.
+    expect(await page.locator('header.head .facts').textContent()).toMatch(/2\s*due/);
+    // One open investigation (the failing separation): a badge in words on its tab.
+    expect(await page.getByTestId('investigations-open').textContent()).toMatch(/1\s*open/);
     expect(await page.locator('.legend').textContent()).toContain('window closed, nothing recorded');
     // Technicians get no amendment form and no edit link.
     expect(await page.getByTestId('edit-link').count()).toBe(0);
     await settle(page);
     await page.screenshot({ path: join(SHOTS, 'study-grid-desktop.png'), fullPage: true });
+    await page.setViewportSize(PHONE);
+    await settle(page);
+    await page.screenshot({ path: join(SHOTS, 'study-grid-phone.png'), fullPage: true });
+    await page.setViewportSize(VIEWPORTS.desktop);
+
+    // The technician reads the investigation: the failing value, "Unconfirmed", no form to close it.
+    await page.getByRole('tab', { name: /Investigations/ }).click();
+    await page.waitForURL(/[?&]tab=investigations\b/);
+    const inv = page.getByTestId('investigations').locator('[data-testid^="investigation-"][data-status]');
+    await expect.poll(() => inv.count()).toBe(1);
+    expect(await inv.getByTestId('investigation-failed').textContent()).toBe('grade 3');
+    expect(await inv.getByTestId('investigation-unconfirmed').textContent()).toContain('Unconfirmed');
+    expect(await inv.getByTestId('investigation-readonly').textContent()).toContain('A formulator or the owner closes the investigation');
+    expect(await inv.locator('form').count()).toBe(0);
+    await settle(page);
+    await page.screenshot({ path: join(SHOTS, 'study-investigations-technician.png'), fullPage: true });
 
     await page.getByRole('tab', { name: 'Plan' }).click();
     await page.waitForSelector('[data-testid="study-plan"]');
@@ -228,7 +295,7 @@ describe('Draft study and empty Bench', () => {
       title: 'Calendula cream, light test (draft)',
       startDate: addDays(today, 3),
       batchIds: [cat.batchIds[0]],
-      conditions: [{ conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: [{ unit: 'day', n: 0 }, { unit: 'week', n: 1 }] }],
+      conditions: [{ conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: [{ unit: 'week', n: 1 }] }],
       attributes: [{ attributeId: cat.attributeIds.ph, criterion: { kind: 'range', min: 5, max: 6.5 } }],
     };
     const created = await formulator.post('/api/studies', plan);

@@ -1,7 +1,8 @@
 /**
  * A formulator plans a study from the 12-week accelerated template in the plan builder, previews
- * it and starts it; a technician then finds it on the Bench. Screenshots of the builder (desktop
- * and tablet), the preview and the start dialog go to test-results/screenshots.
+ * it and starts it; a technician then finds it on the Bench. The plan has one initial test per batch
+ * (no condition has a day 0) and a control reading beside every pull (issue #12). Screenshots of
+ * the builder (desktop and tablet), the preview and the start dialog go to test-results/screenshots.
  */
 import { join } from 'node:path';
 import type { Page } from 'playwright-core';
@@ -155,18 +156,37 @@ describe('planning a study', () => {
     // 2. Batches of the product.
     for (const id of batchIds) await page.getByTestId(`plan-batch-${id}`).click();
 
-    // 3. The oven gets the 12-week accelerated template, the control fridge the control role.
+    // 3. The initial test is shown once, above the conditions; no condition has a day 0 of its own.
+    const initialLine = (await page.getByTestId('plan-initial-test').textContent()) ?? '';
+    expect(initialLine).toContain(`Initial test: `);
+    expect(initialLine).toContain(startDate);
+    expect(initialLine).toContain('one retained sample per batch');
+    // The oven gets the 12-week accelerated template, the control fridge the control role.
     await page.getByTestId(`plan-condition-${oven.id}`).locator('.el-checkbox').first().click();
     await expect.poll(() => page.getByTestId(`plan-template-${oven.id}`).textContent()).toContain('12-week accelerated');
     expect(await page.getByTestId(`plan-role-${oven.id}`).textContent()).toContain('Accelerated');
-    const ovenChips = page.getByTestId(`plan-offsets-${oven.id}`).locator('.chip');
-    expect((await ovenChips.allTextContents()).map((s) => s.trim())).toEqual(['Day 0', 'Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12']);
+    const ovenOffsets = page.getByTestId(`plan-offsets-${oven.id}`);
+    const ovenChips = ovenOffsets.locator('.chip');
+    expect((await ovenChips.allTextContents()).map((s) => s.trim())).toEqual(['Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12']);
+    // A day 0 is not offered: adding one is refused with the reason.
+    await ovenOffsets.locator('.unit').click();
+    await page.getByRole('option', { name: 'Day', exact: true }).click();
+    await ovenOffsets.locator('.n input').fill('0');
+    await ovenOffsets.getByRole('button', { name: 'Add checkpoint' }).click();
+    await expect.poll(() => ovenOffsets.locator('.err').allTextContents()).toEqual([expect.stringContaining('Day 0 is the initial test')]);
+    expect(await ovenChips.count()).toBe(5);
     // Edit the template: add week 6, which lands between weeks 4 and 8.
-    await page.getByTestId(`plan-offsets-${oven.id}`).locator('.n input').fill('6');
-    await page.getByTestId(`plan-offsets-${oven.id}`).getByRole('button', { name: 'Add checkpoint' }).click();
-    await expect.poll(async () => (await ovenChips.allTextContents()).map((s) => s.trim())).toEqual(['Day 0', 'Week 1', 'Week 2', 'Week 4', 'Week 6', 'Week 8', 'Week 12']);
+    await ovenOffsets.locator('.unit').click();
+    await page.getByRole('option', { name: 'Week', exact: true }).click();
+    await ovenOffsets.locator('.n input').fill('6');
+    await ovenOffsets.getByRole('button', { name: 'Add checkpoint' }).click();
+    await expect.poll(async () => (await ovenChips.allTextContents()).map((s) => s.trim())).toEqual(['Week 1', 'Week 2', 'Week 4', 'Week 6', 'Week 8', 'Week 12']);
+    expect(await ovenOffsets.locator('.err').count()).toBe(0);
+    // Each pull of the oven is paired with a same-day control reading unless turned off.
+    expect(await page.getByTestId(`plan-pairing-switch-${oven.id}`).getAttribute('class')).toContain('is-checked');
     await page.getByTestId(`plan-condition-${fridge.id}`).locator('.el-checkbox').first().click();
     await expect.poll(() => page.getByTestId(`plan-role-${fridge.id}`).textContent()).toContain('Control');
+    expect(await page.getByTestId(`plan-pairing-${fridge.id}`).count()).toBe(0); // the control has no switch
 
     // 4. The starter set is ticked with its default criteria.
     for (const code of ['appearance', 'color', 'odor', 'separation', 'texture', 'ph', 'viscosity']) {
@@ -174,16 +194,34 @@ describe('planning a study', () => {
     }
     expect(await page.getByTestId('plan-criterion-ph').locator('input').last().inputValue()).toBe('0.5');
 
-    // 5. The preview from the server.
-    const samples = batchIds.length * 2;
+    // 5. The preview from the server: per batch one sample in each of the 2 conditions and one retained for the initial test.
+    const samples = batchIds.length * 3;
     await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe(String(samples));
     expect(await page.getByTestId('preview-containers').textContent()).toBe(String(samples));
-    expect(await page.getByTestId('preview-grams').textContent()).toBe('100 g'); // 2 conditions x 1 sample x 50 g
+    expect(await page.getByTestId('preview-grams').textContent()).toBe('150 g'); // (2 conditions + 1 retained) x 1 sample x 50 g
+    expect(await page.getByTestId('preview-initial').textContent()).toContain(startDate);
+    expect(await page.getByTestId('preview-initial').textContent()).toContain(`${batchIds.length} retained sample`);
     const ovenSchedule = page.getByTestId(`preview-condition-${oven.id}`);
     const ovenText = (await ovenSchedule.textContent()) ?? '';
     expect(ovenText).toContain('Week 6');
     expect(ovenText).toContain(addDays(startDate, 84)); // week 12
+    expect(ovenText).not.toContain('Day 0');
+    // Every oven pull has its control reading on its day; the fridge gets one added for week 6.
+    expect(await ovenSchedule.getByTestId('preview-pairing').allTextContents()).toEqual(Array(6).fill(expect.stringContaining('Control read the same day')));
+    const fridgeSchedule = page.getByTestId(`preview-condition-${fridge.id}`);
+    expect(await fridgeSchedule.locator('tbody tr').count()).toBe(6);
+    expect(await fridgeSchedule.textContent()).toContain(`Added for ${oven.name} Week 6`);
     expect(await page.getByTestId('preview-cautions').textContent()).toMatch(/hot|heat/i);
+
+    // The readings, counted by hand from this plan with the rule of issue #12 (one initial test per
+    // batch instead of a day 0 in each condition; a control reading on each pull's day). A reading is
+    // one attribute on one sample: one set = batches x 1 sample x ticked attributes.
+    const ticked = await page.locator('[data-testid^="plan-attribute-"].on').count();
+    const set = batchIds.length * ticked;
+    const readings = (await page.getByTestId('preview-readings').textContent())?.replace(/\s+/g, ' ') ?? '';
+    expect(readings).toContain(`One initial test per batch: ${set} readings instead of ${2 * set} with a day 0 in every condition (${set} saved).`);
+    expect(readings).toContain(`Control readings added so every pull has one on its day: ${set}.`); // the fridge's week 6
+    expect(readings).toContain(`Readings in all: ${13 * set}.`); // initial + 6 oven pulls + 5 own and 1 added control readings
 
     await page.evaluate(() => window.scrollTo(0, 0));
     await page.waitForTimeout(200);
@@ -204,7 +242,7 @@ describe('planning a study', () => {
     );
     expect(study.status).toBe('draft');
     expect(study.title).toBe(title);
-    expect(study.conditions.find((c) => c.conditionId === oven.id)?.offsets).toHaveLength(7);
+    expect(study.conditions.find((c) => c.conditionId === oven.id)?.offsets).toHaveLength(6);
     expect(problems).toEqual([]);
     await page.close();
   });
@@ -217,7 +255,7 @@ describe('planning a study', () => {
     await page.getByTestId(`edit-plan-${studyId}`).click();
     await page.waitForURL(new RegExp(`/studies/${studyId}/edit$`));
     await expect.poll(() => input(page, 'plan-title').inputValue()).toBe(title);
-    await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe(String(batchIds.length * 2));
+    await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe(String(batchIds.length * 3));
     // Nothing may stick out sideways at 820 px.
     expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(VIEWPORTS.tablet.width);
     await page.screenshot({ path: join(SHOTS, 'plan-builder-tablet.png') });
@@ -236,8 +274,9 @@ describe('planning a study', () => {
 
     const { study } = await ok<{ study: { status: string; samples: unknown[]; checkpoints: unknown[] } }>(formulator.get(`/api/studies/${studyId}`));
     expect(study.status).toBe('running');
-    expect(study.samples).toHaveLength(batchIds.length * 2);
-    expect(study.checkpoints).toHaveLength(7 + 6); // oven with week 6 added, control on the 12-week template
+    expect(study.samples).toHaveLength(batchIds.length * 3);
+    // The initial test, the oven's 6 pulls (week 6 added), the control's 5 own and 1 added for week 6.
+    expect(study.checkpoints).toHaveLength(1 + 6 + 6);
     expect(problems).toEqual([]);
     await page.close();
   });
@@ -264,7 +303,7 @@ describe('planning a study', () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.tablet });
     const problems = watchPage(page);
     await signInSettled(page, rig.baseUrl, DEMO.technician);
-    // Day 0 is due today, so the study's first checkpoints are on the Bench.
+    // The initial test is due today, so the study is on the Bench.
     await expect.poll(() => page.getByText(title).count(), { timeout: 15_000 }).toBeGreaterThan(0);
     await page.screenshot({ path: join(SHOTS, 'bench-after-plan-tablet.png') });
     await page.getByTestId('nav-studies').click();
@@ -295,7 +334,8 @@ describe('problems the server finds', () => {
     await row.locator('.el-checkbox').first().click();
     // Below 37 °C and not the control: real time, 36 months.
     await expect.poll(() => page.getByTestId(`plan-template-${condition.id}`).textContent()).toContain('36-month real time');
-    await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe('1');
+    // One sample in the condition and one retained for the initial test.
+    await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe('2');
 
     await ok(formulator.patch(`/api/storage-conditions/${condition.id}/active`, { active: false, reason: 'Cabinet sent for repair' }));
     await page.getByTestId('plan-samples').locator('input').fill('2');
@@ -303,6 +343,46 @@ describe('problems the server finds', () => {
     await expect.poll(() => row.textContent(), { timeout: 10_000 }).toContain('no longer in use');
     expect(await page.getByTestId('plan-preview').textContent()).toContain('marked beside the fields');
     expect(problems.filter((p) => !p.includes('400'))).toEqual([]);
+    await page.close();
+  });
+});
+
+describe('pairing with the control', () => {
+  it('turning pairing off needs a reason, shown beside the field; with one, the preview marks the pulls without a control reading', async () => {
+    const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
+    const problems = watchPage(page);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
+    await page.getByTestId('nav-studies').click();
+    await page.getByTestId('plan-study').click();
+    await choose(page, 'plan-product', product.name);
+    await page.getByTestId(`plan-batch-${batchIds[0]}`).click();
+    await page.getByTestId(`plan-condition-${oven.id}`).locator('.el-checkbox').first().click();
+    await page.getByTestId(`plan-condition-${fridge.id}`).locator('.el-checkbox').first().click();
+    await expect.poll(() => page.getByTestId(`plan-role-${fridge.id}`).textContent()).toContain('Control');
+    const ovenSchedule = page.getByTestId(`preview-condition-${oven.id}`);
+    await expect.poll(() => ovenSchedule.textContent(), { timeout: 10_000 }).toContain('Control read the same day');
+
+    // Off, and no reason: the shared schema's message sits beside the reason, nothing is sent.
+    const pairing = page.getByTestId(`plan-pairing-${oven.id}`);
+    await page.getByTestId(`plan-pairing-switch-${oven.id}`).click();
+    await input(page, `plan-pairing-reason-${oven.id}`).waitFor();
+    await page.getByTestId('plan-save').click();
+    await expect.poll(() => pairing.locator('.el-form-item__error').textContent()).toContain('Say why this condition needs no same-day control reading');
+    await expect.poll(() => page.getByTestId('preview-missing').textContent()).toContain('a reason for each condition read without a same-day control');
+    expect(page.url()).toMatch(/\/studies\/new$/);
+    await shotAt(page, `[data-testid="plan-condition-${oven.id}"]`, 'plan-pairing-reason-error-desktop.png');
+
+    // With a reason the mark goes, and the preview says which pulls have no control reading.
+    const reason = 'Judged against the initial test only';
+    await input(page, `plan-pairing-reason-${oven.id}`).fill(reason);
+    await expect.poll(() => pairing.locator('.el-form-item__error').count()).toBe(0);
+    await expect.poll(() => page.getByTestId('preview-warnings').textContent(), { timeout: 10_000 }).toContain(`pairing turned off: ${reason}`);
+    expect(await ovenSchedule.getByTestId('preview-pairing').allTextContents()).toEqual(Array(5).fill(expect.stringContaining('No control reading')));
+    // The warning is an icon and words, not colour alone.
+    expect(await ovenSchedule.getByTestId('preview-pairing').first().locator('svg').count()).toBe(1);
+    // Nothing is added to the fridge's own 12-week schedule.
+    expect(await page.getByTestId(`preview-condition-${fridge.id}`).textContent()).not.toContain('Added for');
+    expect(problems).toEqual([]);
     await page.close();
   });
 });

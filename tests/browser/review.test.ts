@@ -1,11 +1,15 @@
 /**
  * Release review in headless Chromium: a running study with results, chamber logs and
- * photos is built through the API; the formulator signs in, opens the study page's
- * "Submit for review" tab, fills the proposals, the summary and the reason for the open
- * checkpoints (each refused beside its field while missing) and submits, and the page shows
- * the study in review. The owner opens Reviews, opens the study, signs a release for variant A
+ * photos is built through the API (the initial test on the retained samples, then the pulls);
+ * B's separation at 45 °C week 8 fails its criterion and opens an out-of-specification
+ * investigation. The formulator is told by an in-app notice, opens the study page's "Submit for
+ * review" tab, fills the proposals, the summary and the reason for the open checkpoints (each
+ * refused beside its field while missing); submitting is refused while the investigation is
+ * open, so they close it on the Investigations tab (empty fields and a re-test outside the scale
+ * refused beside their fields) and submit, and the page shows the study in review. The owner opens Reviews, opens the study, signs a release for variant A
  * (after one wrong password) and returns variant B for more testing with an added checkpoint.
- * The queue no longer lists the study and the review page shows both outcomes. Then the PDF
+ * The queue no longer lists the study and the review page shows both outcomes and the
+ * investigation with its conclusion. Then the PDF
  * (first two pages rendered with pdftoppm) and the print-friendly web report. Invented data:
  * A holds; B separates at 45 °C by week 8.
  */
@@ -18,6 +22,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
 import { seedFormulas } from '../../server/demo/formulas';
 import { addDays } from '../../shared/compute/schedule';
+import type { Investigation } from '../../shared/schemas/oos';
 import type { BenchResponse, StudyDetail } from '../../shared/schemas/studies';
 import { DEMO, DEMO_PASSWORD, type Client } from '../helpers/app';
 import { SHOTS, VIEWPORTS, signInSettled, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
@@ -30,7 +35,8 @@ let today: string;
 
 const W = (n: number) => ({ unit: 'week' as const, n });
 const C = (n: number) => ({ unit: 'cycle' as const, n });
-const DAY0 = { unit: 'day' as const, n: 0 };
+const TABLET_1024 = { width: 1024, height: 768 } as const;
+const PHONE = { width: 390, height: 844 } as const;
 
 /** A jar seen from above: cream colour, and for a separated sample an oily band on top (invented image). */
 async function jarPhoto(tint: number, separated: boolean): Promise<Buffer> {
@@ -60,7 +66,7 @@ beforeAll(async () => {
   const cat = await makeCatalogue(rig.t.db, lab.id);
   today = ((await formulator.get('/api/bench?days=7')).body as BenchResponse).today;
   const start = addDays(today, -56);
-  const weekly = [DAY0, W(1), W(2), W(4), W(8), W(12)];
+  const weekly = [W(1), W(2), W(4), W(8), W(12)];
   const a = cat.attributeIds;
   const created = await formulator.post('/api/studies', {
     productId: demo.products.handCream,
@@ -71,7 +77,7 @@ beforeAll(async () => {
       { conditionId: cat.conditions.fridge, role: 'control', template: null, offsets: weekly },
       { conditionId: cat.conditions.room, role: 'real_time', template: null, offsets: weekly },
       { conditionId: cat.conditions.oven45, role: 'accelerated', template: 'accelerated-12w', offsets: weekly },
-      { conditionId: cat.conditions.freezeThaw, role: 'stress', template: null, offsets: [DAY0, C(1), C(2), C(3)] },
+      { conditionId: cat.conditions.freezeThaw, role: 'stress', template: null, offsets: [C(1), C(2), C(3)] },
     ],
     attributes: [
       { attributeId: a.ph, criterion: { kind: 'change_abs', max: 0.5 } },
@@ -92,8 +98,9 @@ beforeAll(async () => {
   const ids = Object.fromEntries(study.attributes.map((x) => [x.code, x.id]));
   const variantB = demo.variants.handCreamB;
   const isB = (batchId: number) => study.batches.find((b) => b.id === batchId)?.variant.id === variantB;
+  // The initial test (retained samples, no condition), the pulls and the control readings paired with them, as far as today.
   for (const cp of study.checkpoints.filter((c) => c.dueDate <= today)) {
-    const role = roleOf.get(cp.studyConditionId);
+    const role = cp.studyConditionId == null ? undefined : roleOf.get(cp.studyConditionId);
     const hot = role === 'accelerated';
     const room = role === 'real_time';
     const w = cp.offset.unit === 'week' ? cp.offset.n : 0;
@@ -114,8 +121,8 @@ beforeAll(async () => {
         ],
       });
       expect(res.status, JSON.stringify(res.body)).toBe(200);
-      // Photos of the 45 °C samples at day 0, week 4 and week 8.
-      if (hot && [0, 4, 8].includes(w)) {
+      // Photos of the retained samples at the initial test, and of the 45 °C samples at week 4 and week 8.
+      if (cp.kind === 'initial' || (hot && [4, 8].includes(w))) {
         const up = await technician.agent
           .post(`/api/samples/${s.code}/checkpoints/${cp.id}/photos`)
           .set('X-Keepwell-Request', '1')
@@ -145,10 +152,39 @@ async function noBadText(page: Page) {
 }
 
 describe('Submit for review', () => {
-  it('the formulator submits the running study from its page; the page shows it in review', async () => {
+  it('the formulator is told of the out-of-specification result, closes its investigation, then submits; the page shows the study in review', async () => {
+    const investigations = (await formulator.get(`/api/studies/${study.id}/investigations`)).body.investigations as Investigation[];
+    // One failing result: B's separation grade 2 at 45 °C week 8 against "at worst grade 1".
+    expect(investigations.map((i) => [i.variant, i.checkpoint.label, i.attribute.name, i.failed.value, i.status])).toEqual([['B', 'Week 8', 'Separation', 2, 'open']]);
+    const inv = investigations[0];
+
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
     await signInSettled(page, rig.baseUrl, DEMO.formulator);
+
+    // The in-app notice: the bell says "1 new" in words; at phone size too, the list opens under it.
+    const bell = page.getByTestId('notifications-button');
+    await expect.poll(() => bell.textContent()).toMatch(/Notices\s*1\s*new/);
+    expect(await page.getByRole('button', { name: /^Notices\s*1\s*new$/ }).count()).toBe(1); // its name is its text
+    await page.setViewportSize(PHONE);
+    await bell.click();
+    const notice = page.getByTestId('notifications').locator('[data-testid^="notification-"]');
+    await expect.poll(() => notice.count()).toBe(1);
+    expect(await notice.textContent()).toContain(`Out of specification in ${study.title}`);
+    expect(await notice.textContent()).toContain('New');
+    expect((await bell.boundingBox())!.x + (await bell.boundingBox())!.width).toBeLessThanOrEqual(PHONE.width);
+    await page.waitForTimeout(300);
+    await page.screenshot({ path: join(SHOTS, 'notifications-phone.png') });
+    await page.setViewportSize(VIEWPORTS.desktop);
+    await page.waitForTimeout(300);
+    await page.screenshot({ path: join(SHOTS, 'notifications-desktop.png') });
+    // Choosing it marks it read and opens the study's investigations.
+    await notice.click();
+    await page.waitForURL(new RegExp(`/studies/${study.id}\\?tab=investigations$`));
+    await page.getByTestId('investigations').waitFor();
+    await expect.poll(() => bell.textContent()).not.toContain('new');
+    expect((await formulator.get('/api/notifications')).body.unread).toBe(0);
+    expect(await page.getByTestId('investigations-open').textContent()).toMatch(/1\s*open/);
 
     // Studies, then the study, then its "Submit for review" tab.
     await page.getByTestId('nav-studies').click();
@@ -185,11 +221,64 @@ describe('Submit for review', () => {
     // Typing the reason clears its error at once, before the next submit.
     await form.getByTestId('submit-open-reason').fill('Week 12 is not needed for A; B goes on in any case');
     await expect.poll(() => form.locator('.el-form-item__error').count()).toBe(0);
+    // The open investigation is named above the form, with the way to it.
+    expect(await form.getByTestId('submit-oos-block').textContent()).toContain('1 out-of-specification investigation is still open: close it before submitting');
     await page.evaluate(() => window.scrollTo(0, 0)); // the pinned app bar stays at the top of a full-page shot
     await page.waitForTimeout(300);
     await page.screenshot({ path: join(SHOTS, 'study-submit-tab.png'), fullPage: true });
     expect((await formulator.get(`/api/studies/${study.id}`)).body.study.status).toBe('running');
 
+    // Submitting anyway: the server refuses (409, fields.investigations) and its message shows above the form.
+    await form.getByTestId('submit-for-review').click();
+    await expect.poll(() => form.getByTestId('submit-oos-block').textContent()).toMatch(/1 out-of-specification investigation is still open \(.+\): close it before submitting/);
+    expect(await form.getByTestId('submit-oos-block').textContent()).toContain(`${inv.sampleCode}`);
+    expect((await formulator.get(`/api/studies/${study.id}`)).body.study.status).toBe('running');
+
+    // To the investigation: empty fields refused beside each, then a re-test outside the scale refused by the server beside its field.
+    await form.getByTestId('submit-oos-link').click();
+    await page.waitForURL(/[?&]tab=investigations\b/);
+    const card = page.getByTestId(`investigation-${inv.id}`);
+    await card.waitFor();
+    expect(await card.getAttribute('data-status')).toBe('open');
+    await card.getByTestId(`close-${inv.id}-submit`).click();
+    await expect.poll(() => card.locator('.el-form-item__error').allTextContents()).toEqual(
+      expect.arrayContaining(['Say what was checked on the instrument', 'Say what was checked on the calculation', 'Choose a conclusion: confirmed, or invalidated as a lab error', 'Say why (at least 3 characters)']),
+    );
+    await card.getByTestId(`close-${inv.id}-instrument`).fill('Not an instrument reading: visual grade under the bench lamp');
+    await card.getByTestId(`close-${inv.id}-method`).fill('Graded against the photo scale, jar at room temperature for 1 h');
+    await card.getByTestId(`close-${inv.id}-sample`).fill('Right jar (code on the label), not shaken before grading');
+    await card.getByTestId(`close-${inv.id}-calculation`).fill('None: a direct grade');
+    await card.getByTestId(`close-${inv.id}-invalidated`).click();
+    await card.getByTestId(`close-${inv.id}-reason`).fill('Graded before the jar came to room temperature');
+    await card.getByTestId(`close-${inv.id}-retest`).fill('9');
+    await card.getByTestId(`close-${inv.id}-submit`).click();
+    await expect.poll(() => card.locator('.el-form-item__error').allTextContents()).toEqual(['9 is not a grade of the Separation scale']);
+    expect(await card.locator('.form-error').count()).toBe(0); // said once, beside its field
+    await page.setViewportSize(TABLET_1024);
+    await page.waitForTimeout(300);
+    await page.evaluate(() => window.scrollTo(0, 0)); // the pinned app bar stays at the top of a full-page shot
+    await page.screenshot({ path: join(SHOTS, 'study-investigation-close-tablet.png'), fullPage: true });
+    await page.setViewportSize(PHONE);
+    await page.waitForTimeout(300);
+    await page.evaluate(() => window.scrollTo(0, 0)); // the pinned app bar stays at the top of a full-page shot
+    await page.screenshot({ path: join(SHOTS, 'study-investigation-close-phone.png'), fullPage: true });
+    await page.setViewportSize(VIEWPORTS.desktop);
+
+    // On a second look the separation is real: confirmed, with the reason.
+    await card.getByTestId(`close-${inv.id}-confirmed`).click();
+    await card.getByTestId(`close-${inv.id}-reason`).fill('Re-graded at room temperature: still a visible layer; the result stands');
+    await card.getByTestId(`close-${inv.id}-submit`).click();
+    await expect.poll(() => card.getAttribute('data-status')).toBe('closed');
+    expect(await card.getByTestId('investigation-conclusion').textContent()).toContain('Confirmed');
+    expect(await card.getByTestId('investigation-conclusion').textContent()).toContain('closed by Theo Okafor');
+    expect(await page.getByTestId('investigations-open').count()).toBe(0);
+    await page.evaluate(() => window.scrollTo(0, 0)); // the pinned app bar stays at the top of a full-page shot
+    await page.screenshot({ path: join(SHOTS, 'study-investigation-closed.png'), fullPage: true });
+
+    // Back on the Submit tab the form kept what was typed, the block is gone, and it submits.
+    await page.getByRole('tab', { name: 'Submit for review' }).click();
+    await expect.poll(() => form.getByTestId('submit-oos-block').count()).toBe(0);
+    expect(await form.getByTestId('submit-open-reason').inputValue()).toBe('Week 12 is not needed for A; B goes on in any case');
     await form.getByTestId('submit-for-review').click();
     await expect.poll(() => page.getByTestId('study-status').getAttribute('data-status')).toBe('in_review');
     expect(await page.getByTestId('study-status').textContent()).toContain('In review');
@@ -222,7 +311,8 @@ describe('Submit for review', () => {
     ]);
     expect(review.submission.openCheckpointsReason).toBe('Week 12 is not needed for A; B goes on in any case');
     expect(review.submission.submittedBy).toBe('Theo Okafor');
-    expect(problems).toEqual([]);
+    // The console errors are the refused submission (409) and the refused re-test (422).
+    expect(problems.filter((p) => !/status of (409|422)/.test(p))).toEqual([]);
     await page.close();
   });
 });
@@ -259,10 +349,24 @@ describe('Release review', () => {
     expect(await b.getByTestId('photos-B').locator('img').count()).toBe(3);
     expect(await a.getByTestId('charts-A').getAttribute('href')).toBe(`/studies/${study.id}/analysis`);
     expect(await page.getByTestId('variant-state-A').textContent()).toContain('Awaiting decision');
+    // Every out-of-specification result with its investigation's conclusion.
+    const oos = page.getByTestId('review-investigations');
+    expect(await oos.locator('tbody tr').count()).toBe(1);
+    expect(await oos.locator('tbody tr').textContent()).toContain('Separation: grade 2 (FAIL)');
+    expect(await oos.getByTestId('investigation-row-conclusion').textContent()).toContain('Confirmed');
+    expect(await oos.getByTestId('investigation-row-conclusion').textContent()).toContain('Re-graded at room temperature');
+    expect(await oos.textContent()).toContain('every investigation closed');
     await page.waitForFunction(() => [...document.images].every((i) => i.complete && i.naturalWidth > 0));
     await noBadText(page);
     await page.screenshot({ path: join(SHOTS, 'review-desktop.png') });
     await page.screenshot({ path: join(SHOTS, 'review-desktop-full.png'), fullPage: true });
+    for (const [name, size] of [['tablet', TABLET_1024], ['phone', PHONE]] as const) {
+      await page.setViewportSize(size);
+      await page.waitForTimeout(300);
+      await oos.scrollIntoViewIfNeeded();
+      await page.screenshot({ path: join(SHOTS, `review-investigations-${name}.png`) });
+    }
+    await page.setViewportSize(VIEWPORTS.desktop);
 
     // Variant A: released, 6 months, PAO 6; the label dating follows live (30 months or less: best-before).
     await a.getByTestId('decision-A-outcome-released').click();
@@ -385,6 +489,7 @@ describe('Release review', () => {
       'Attributes and acceptance criteria',
       'Charts',
       'Suggested shelf life and reasons',
+      'Out-of-specification results',
       'Every observation',
       'Photos at key checkpoints',
       'Decision and signatures',
@@ -394,6 +499,7 @@ describe('Release review', () => {
     expect(await report.textContent()).toContain('approved for release');
     expect(await report.textContent()).toContain('returned for more testing');
     expect(await report.textContent()).toContain('Calendula'); // formula lines from the lot's snapshot
+    expect(await report.getByTestId('investigation-row-conclusion').textContent()).toContain('Confirmed');
     expect(await page.getByTestId('report-pdf').getAttribute('href')).toBe(`/api/studies/${study.id}/report.pdf`);
     expect(await page.getByTestId('report-csv').getAttribute('href')).toBe(`/api/studies/${study.id}/observations.csv`);
     await page.waitForFunction(() => [...document.images].every((i) => i.complete && i.naturalWidth > 0));
@@ -419,13 +525,13 @@ describe('Release review', () => {
   });
 
   it('releases with ready-phrase conditions, rejects the other variant, then supersedes with a reason', async () => {
-    // A second, small study with day 0 recorded (as in tests/api/reviews.test.ts runningStudy()).
+    // A second, small study with its initial test recorded on the retained samples (as in tests/api/reviews.test.ts runningStudy()).
     const cat = await makeCatalogue(rig.t.db, rig.t.labs[0].id, 'Rose body lotion');
     const plan = { ...planFor(cat, addDays(today, -3)), title: 'Rose body lotion: quick check' };
     const id = (await formulator.post('/api/studies', plan)).body.study.id as number;
     const small = (await formulator.post(`/api/studies/${id}/start`)).body.study as StudyDetail;
-    for (const cp of small.checkpoints.filter((c) => c.label === 'Day 0')) {
-      for (const s of small.samples.filter((x) => x.studyConditionId === cp.studyConditionId)) {
+    for (const cp of small.checkpoints.filter((c) => c.kind === 'initial')) {
+      for (const s of small.samples.filter((x) => x.studyConditionId == null)) {
         const res = await technician.put(`/api/samples/${s.code}/checkpoints/${cp.id}/observations`, {
           entries: small.attributes.map((x) => ({ studyAttributeId: x.id, value: x.code === 'ph' ? 5.5 : x.code === 'separation' ? 0 : 'no_change' })),
         });

@@ -7,6 +7,7 @@ import { eq } from 'drizzle-orm';
 import type { Db } from '../../server/db/client';
 import type { Client } from './app';
 import { attributes, batches, formulaLines, ingredients, products, storageConditions, variants } from '../../server/db/schema';
+import type { Offset } from '../../shared/compute/schedule';
 
 export interface Catalogue {
   productId: number;
@@ -65,8 +66,8 @@ export function planFor(c: Catalogue, startDate = '2026-11-02') {
     startDate,
     batchIds: c.batchIds,
     conditions: [
-      { conditionId: c.conditions.fridge, role: 'control' as const, template: 'accelerated-12w', offsets: [{ unit: 'day' as const, n: 0 }, { unit: 'week' as const, n: 1 }, { unit: 'week' as const, n: 4 }] },
-      { conditionId: c.conditions.oven45, role: 'accelerated' as const, template: 'accelerated-12w', offsets: [{ unit: 'day' as const, n: 0 }, { unit: 'week' as const, n: 1 }, { unit: 'week' as const, n: 4 }] },
+      { conditionId: c.conditions.fridge, role: 'control' as const, template: 'accelerated-12w', offsets: [{ unit: 'week', n: 1 }, { unit: 'week', n: 4 }] as Offset[] },
+      { conditionId: c.conditions.oven45, role: 'accelerated' as const, template: 'accelerated-12w', offsets: [{ unit: 'week', n: 1 }, { unit: 'week', n: 4 }] as Offset[] },
     ],
     attributes: [
       { attributeId: c.attributeIds.ph, criterion: { kind: 'change_abs' as const, max: 0.5 } },

@@ -21,25 +21,27 @@ import {
 describe('templates', () => {
   it('real-time-36m follows the ICH Q1A(R2) long-term testing frequency', () => {
     // ICH Q1A(R2) 2.1.7 / 2.2.7: long-term testing "every 3 months over the first year, every 6 months
-    // over the second year, and annually thereafter through the proposed shelf life" (plus the initial point).
-    const expected: number[] = [0];
+    // over the second year, and annually thereafter through the proposed shelf life". The initial point is the
+    // study's initial test, done once per batch (shared/compute/study-calendar.ts), so the template starts at month 3.
+    const expected: number[] = [];
     for (let month = 3; month <= 12; month += 3) expected.push(month);
     for (let month = 18; month <= 24; month += 6) expected.push(month);
     for (let month = 36; month <= 36; month += 12) expected.push(month);
     const t = SCHEDULE_TEMPLATES['real-time-36m'];
     expect(t.offsets.every((o) => o.unit === 'month')).toBe(true);
     expect(t.offsets.map((o) => o.n)).toEqual(expected);
-    expect(expected).toEqual([0, 3, 6, 9, 12, 18, 24, 36]);
+    expect(expected).toEqual([3, 6, 9, 12, 18, 24, 36]);
   });
 
   it('holds the common-practice templates named in DESIGN.md', () => {
     // DESIGN.md "Studies" and "Checkpoint" (common practice, no published source).
     const show = (id: keyof typeof SCHEDULE_TEMPLATES) => SCHEDULE_TEMPLATES[id].offsets.map(offsetLabel);
-    expect(show('accelerated-12w')).toEqual(['Day 0', 'Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12']);
+    // No storage template has a day 0: the initial test is the study's, once per batch. A centrifuge test is itself done at the start.
+    expect(show('accelerated-12w')).toEqual(['Week 1', 'Week 2', 'Week 4', 'Week 8', 'Week 12']);
     expect(show('freeze-thaw-5')).toEqual(['Cycle 1', 'Cycle 3', 'Cycle 5']);
-    expect(show('light-4w')).toEqual(['Day 0', 'Week 1', 'Week 2', 'Week 3', 'Week 4']);
+    expect(show('light-4w')).toEqual(['Week 1', 'Week 2', 'Week 3', 'Week 4']);
     expect(show('centrifuge')).toEqual(['Day 0']);
-    expect(show('real-time-36m')[0]).toBe('Day 0');
+    expect(show('real-time-36m')[0]).toBe('Month 3');
     for (const [id, t] of Object.entries(SCHEDULE_TEMPLATES)) {
       expect(t.id).toBe(id);
       expect(t.label).toBe(SCHEDULE_TEMPLATE_LABELS[t.id]);
@@ -202,15 +204,14 @@ describe('generateSchedule', () => {
     // Template from DESIGN.md (common practice); start Monday 2026-01-05 (weekday from the Gregorian calendar).
     const s = generateSchedule({ startDate: '2026-01-05', offsets: SCHEDULE_TEMPLATES['accelerated-12w'].offsets });
     expect(s.map((c) => [c.label, c.dueDate, c.windowBefore, c.windowAfter])).toEqual([
-      ['Day 0', '2026-01-05', 0, 1],
       ['Week 1', '2026-01-12', 1, 1],
       ['Week 2', '2026-01-19', 1, 1],
       ['Week 4', '2026-02-02', 1, 1],
       ['Week 8', '2026-03-02', 3, 3],
       ['Week 12', '2026-03-30', 3, 3],
     ]);
-    expect(s[4].windowStart).toBe('2026-02-27');
-    expect(s[4].windowEnd).toBe('2026-03-05');
+    expect(s[3].windowStart).toBe('2026-02-27');
+    expect(s[3].windowEnd).toBe('2026-03-05');
     expect(s.every((c) => c.warnings.length === 0)).toBe(true);
   });
 
@@ -239,7 +240,6 @@ describe('generateSchedule', () => {
     // ICH Q1A(R2) frequency (see above) from 2027-08-31; month ends clamp (Gregorian calendar: 2028 is a leap year).
     const s = generateSchedule({ startDate: '2027-08-31', offsets: SCHEDULE_TEMPLATES['real-time-36m'].offsets });
     expect(s.map((c) => c.dueDate)).toEqual([
-      '2027-08-31',
       '2027-11-30',
       '2028-02-29',
       '2028-05-31',
@@ -248,7 +248,7 @@ describe('generateSchedule', () => {
       '2029-08-31',
       '2030-08-31',
     ]);
-    expect(s.map((c) => c.label)).toEqual(['Day 0', 'Month 3', 'Month 6', 'Month 9', 'Month 12', 'Month 18', 'Month 24', 'Month 36']);
+    expect(s.map((c) => c.label)).toEqual(['Month 3', 'Month 6', 'Month 9', 'Month 12', 'Month 18', 'Month 24', 'Month 36']);
   });
 
   it('needs a cycle length for cycle offsets', () => {

@@ -6,3 +6,4 @@ export * from './studies';
 export * from './mail';
 export * from './records';
 export * from './decisions';
+export * from './oos';

@@ -22,7 +22,7 @@ export const observationRevisions = mysqlTable(
     recordedBy: ref('recorded_by').notNull(),
     recordedAt: datetime('recorded_at', { mode: 'date', fsp: 3 }).notNull(),
     /** What replaced it, who did it, when and why. */
-    change: mysqlEnum('change', ['correction', 'void']).notNull(),
+    change: mysqlEnum('change', ['correction', 'void', 'invalidated']).notNull(),
     changedBy: ref('changed_by').notNull().references(() => users.id),
     changedAt: createdAt('changed_at'),
     reason: text('reason').notNull(),

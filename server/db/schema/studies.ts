@@ -23,6 +23,7 @@ import {
   STUDY_STATUSES,
   CONDITION_ROLES,
   CHECKPOINT_STATUSES,
+  CHECKPOINT_KINDS,
   AMENDMENT_KINDS,
   VERDICTS,
   type AttributeScaleStep,
@@ -111,6 +112,9 @@ export const studyConditions = mysqlTable(
     /** The planned checkpoint offsets; dated checkpoints are made from them at start. */
     offsets: json('offsets').$type<PlanOffset[]>().notNull(),
     template: varchar('template', { length: 32 }),
+    /** Each pull is paired with a same-day control reading of the same batch (off only with a reason). */
+    pairControl: boolean('pair_control').notNull().default(true),
+    pairingOffReason: text('pairing_off_reason'),
     endedOn: date('ended_on', { mode: 'string' }),
     endedReason: text('ended_reason'),
   },
@@ -137,7 +141,8 @@ export const samples = mysqlTable(
     labId: ref('lab_id').notNull().references(() => labs.id),
     studyId: ref('study_id').notNull().references(() => studies.id),
     batchId: ref('batch_id').notNull().references(() => batches.id),
-    studyConditionId: ref('study_condition_id').notNull().references(() => studyConditions.id),
+    /** The condition it is stored in; null for a batch's retained sample of the initial test. */
+    studyConditionId: ref('study_condition_id').references(() => studyConditions.id),
     /** Short code printed on the label, unique in the lab. */
     code: varchar('code', { length: 12 }).notNull(),
     replicate: int('replicate').notNull().default(1),
@@ -152,7 +157,16 @@ export const checkpoints = mysqlTable(
     id: pk(),
     labId: ref('lab_id').notNull().references(() => labs.id),
     studyId: ref('study_id').notNull().references(() => studies.id),
-    studyConditionId: ref('study_condition_id').notNull().references(() => studyConditions.id),
+    /** Null for the study's initial test, which belongs to no condition. */
+    studyConditionId: ref('study_condition_id').references(() => studyConditions.id),
+    /**
+     * 'initial': the study's one initial (time-zero) test, every batch's baseline; 'pull': a scheduled
+     * inspection of one condition; 'extra_day0': a condition's own day 0 from before the initial test
+     * existed, kept as extra readings (see server/db/data-migrations.ts).
+     */
+    kind: mysqlEnum('kind', CHECKPOINT_KINDS).notNull().default('pull'),
+    /** For a pull: the control reading (a control pull, or the initial test) it is judged against, read the same day. */
+    controlCheckpointId: ref('control_checkpoint_id'),
     offsetUnit: mysqlEnum('offset_unit', ['day', 'week', 'month', 'cycle']).notNull(),
     offsetN: int('offset_n').notNull(),
     label: varchar('label', { length: 40 }).notNull(),
@@ -169,6 +183,7 @@ export const checkpoints = mysqlTable(
   (t) => [
     index('checkpoints_lab_due_idx').on(t.labId, t.status, t.dueDate),
     index('checkpoints_study_idx').on(t.studyId, t.studyConditionId, t.dueDate),
+    index('checkpoints_control_idx').on(t.controlCheckpointId),
   ],
 );
 

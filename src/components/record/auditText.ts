@@ -15,6 +15,10 @@ export const ACTION_LABELS: Readonly<Record<string, string>> = {
   lockout: 'Locked out',
   amend: 'Amended',
   import: 'Imported',
+  remeasure: 'Re-measured',
+  confirm: 'Confirmed at the bench',
+  close: 'Closed',
+  migrate: 'Migrated',
 };
 
 const ENTITY_LABELS: Readonly<Record<string, string>> = {
@@ -33,6 +37,7 @@ const ENTITY_LABELS: Readonly<Record<string, string>> = {
   variant: 'Variant',
   ingredient: 'Ingredient',
   formulas: 'Formulas',
+  oos_investigation: 'Out-of-specification investigation',
 };
 
 /** Keys that say which thing a row is about; shown under "What", not as changes. */

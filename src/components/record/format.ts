@@ -5,7 +5,7 @@
  */
 import { COMPARED_LEVEL_LABELS, evaluate, physicalRangeError, type ComparedLevel, type Criterion, type Evaluation } from '@shared/compute/criteria';
 import type { StoredVerdict } from '@shared/domain';
-import type { Attribute } from '@shared/schemas/studies';
+import type { Attribute, StudyCheckpoint } from '@shared/schemas/studies';
 import { formatDecimals, formatNumber } from '@/format/criterion';
 
 export type Value = number | string | boolean;
@@ -131,6 +131,15 @@ export function liveEvaluation(
   } catch {
     return null;
   }
+}
+
+/**
+ * Whether a value at this checkpoint is its own baseline, as the server judges it: the initial test,
+ * an old condition's own day 0 kept as extra readings, or a day-0 pull of a study without an initial test.
+ */
+export function judgedAgainstItself(cp: Pick<StudyCheckpoint, 'kind' | 'offset'>, baseline: { label: string } | null | undefined): boolean {
+  if (cp.kind === 'initial' || cp.kind === 'extra_day0') return true;
+  return cp.offset.n === 0 && cp.offset.unit !== 'cycle' && baseline?.label !== 'Initial';
 }
 
 /** Step attribute for a number input with `decimals` places ("0.01" for 2). */

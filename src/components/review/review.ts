@@ -5,6 +5,7 @@
  */
 import type { SuggestResult } from '@shared/compute/suggest';
 import type { DecisionOutcome } from '@shared/domain';
+import type { Investigation } from '@shared/schemas/oos';
 import type { DecidedStudyItem, DecisionInput, DecisionView, ReviewQueueItem, SubmissionView, SubmitInput } from '@shared/schemas/reviews';
 import { api } from '@/api/client';
 
@@ -26,6 +27,8 @@ export interface StudyReview {
   current: DecisionView[];
   /** SHA-256 of the study data as it is now. */
   dataHash: string;
+  /** Every out-of-specification result and its investigation. */
+  investigations: Investigation[];
 }
 
 export const reviewApi = {

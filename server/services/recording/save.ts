@@ -1,0 +1,150 @@
+/**
+ * Saving a checkpoint's readings for one sample: every entry checked, judged against its criterion
+ * and baseline, written in one transaction with its audit rows; a failing reading opens an
+ * out-of-specification investigation in the same transaction. The checkpoint closes itself when
+ * every sample has every attribute.
+ */
+import { and, eq, sql } from 'drizzle-orm';
+import type { RecordEntry } from '../../../shared/schemas/records';
+import type { Db, DbOrTx } from '../../db/client';
+import { checkpoints, observations, samples, studyAttributes } from '../../db/schema';
+import { conflict, HttpError } from '../../http/errors';
+import { auditMany } from '../audit';
+import { openInvestigations } from '../oos';
+import { checkpointOpen, context, samplesAtCheckpoint } from './context';
+import { baselines, columnsFor, evaluateFor, judgedFrom, valueOf, type AttributeRow } from './values';
+
+export interface Recorder {
+  id: number;
+  labId: number;
+  role: 'technician' | 'formulator' | 'owner';
+}
+
+type ObservationRow = typeof observations.$inferSelect;
+
+export const unprocessable = (fields: Record<string, string>) =>
+  new HttpError(422, 'unprocessable', Object.values(fields)[0] ?? 'Check the values', fields);
+
+/** Marks the checkpoint done when every sample has every attribute recorded (or not done with a reason), or reopens it. */
+export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId: number): Promise<void> {
+  const [cp] = await tx.select().from(checkpoints).where(eq(checkpoints.id, checkpointId));
+  if (cp.kind === 'extra_day0') return;
+  const [{ n: sampleCount }] = await tx.select({ n: sql<number>`count(*)` }).from(samples).where(samplesAtCheckpoint(cp));
+  const [{ n: attrCount }] = await tx.select({ n: sql<number>`count(*)` }).from(studyAttributes).where(eq(studyAttributes.studyId, cp.studyId));
+  const [{ n: recorded }] = await tx
+    .select({ n: sql<number>`count(*)` })
+    .from(observations)
+    .where(and(eq(observations.checkpointId, checkpointId), eq(observations.voided, false)));
+  const complete = Number(sampleCount) > 0 && Number(recorded) >= Number(sampleCount) * Number(attrCount);
+  if (complete && cp.status === 'open') {
+    await tx.update(checkpoints).set({ status: 'done', closedAt: new Date(), closedBy: userId }).where(eq(checkpoints.id, checkpointId));
+  } else if (!complete && cp.status === 'done') {
+    await tx.update(checkpoints).set({ status: 'open', closedAt: null, closedBy: null }).where(eq(checkpoints.id, checkpointId));
+  }
+}
+
+/**
+ * Saves readings for one sample at one checkpoint. Each attribute is recorded
+ * once; a second save of an attribute answers 409 (use a correction with a
+ * reason). Nothing is kept unless every entry is valid.
+ */
+export async function recordObservations(
+  db: Db,
+  who: Recorder,
+  code: string,
+  checkpointId: number,
+  entries: RecordEntry[],
+  today: string,
+  allowEarly: boolean,
+): Promise<void> {
+  await db.transaction(async (tx) => {
+    const ctx = await context(tx, who.labId, code, checkpointId, true);
+    const closed = checkpointOpen(ctx.study, ctx.checkpoint, today, allowEarly && who.role !== 'technician');
+    if (closed) throw conflict(closed);
+    const base = await baselines(tx, ctx.study, ctx.sample, ctx.attrs);
+    const existing = await tx
+      .select()
+      .from(observations)
+      .where(and(eq(observations.sampleId, ctx.sample.id), eq(observations.checkpointId, checkpointId)));
+    const fields: Record<string, string> = {};
+    const conflicts: Record<string, string> = {};
+    const seen = new Set<number>();
+    const rows: (typeof observations.$inferInsert & { attr: AttributeRow; message: string })[] = [];
+    entries.forEach((e, i) => {
+      const at = ctx.attrs.find((x) => x.sa.id === e.studyAttributeId);
+      if (!at) {
+        fields[`entries.${i}.studyAttributeId`] = 'Not an attribute of this study';
+        return;
+      }
+      if (seen.has(e.studyAttributeId)) {
+        fields[`entries.${i}.studyAttributeId`] = 'Listed twice';
+        return;
+      }
+      seen.add(e.studyAttributeId);
+      if (existing.some((o) => o.studyAttributeId === e.studyAttributeId)) {
+        conflicts[`entries.${i}.value`] = `${at.a.name} is already recorded here; correct it with a reason instead`;
+        return;
+      }
+      const common = { labId: who.labId, studyId: ctx.study.id, sampleId: ctx.sample.id, checkpointId, studyAttributeId: at.sa.id, method: e.method ?? null, recordedBy: who.id, attr: at.a };
+      if (e.notDoneReason) {
+        rows.push({ ...common, verdict: 'not_done', notDoneReason: e.notDoneReason, message: '' });
+        return;
+      }
+      const cols = columnsFor(at.a, e.value!);
+      if (typeof cols === 'string') {
+        fields[`entries.${i}.value`] = cols;
+        return;
+      }
+      const ev = evaluateFor(at.a, at.sa.criterion, e.value!, judgedFrom(ctx.checkpoint, base.get(at.sa.id), e.value!));
+      rows.push({ ...common, ...cols, verdict: ev.verdict, message: ev.message });
+    });
+    if (Object.keys(fields).length) throw unprocessable(fields);
+    if (Object.keys(conflicts).length) throw conflict(Object.values(conflicts)[0], conflicts);
+    // One multi-row INSERT for the readings and one for their audit rows (ids in insert order).
+    if (!rows.length) throw unprocessable({ entries: 'Nothing to save' });
+    const ids = await tx.insert(observations).values(rows.map(({ attr: _attr, message: _m, ...row }) => row)).$returningId();
+    await auditMany(
+      tx,
+      rows.map(({ attr, ...row }, i) => ({
+        labId: who.labId,
+        userId: who.id,
+        action: 'create' as const,
+        entity: 'observation',
+        entityId: ids[i].id,
+        studyId: ctx.study.id,
+        newValue: {
+          sample: ctx.sample.code,
+          checkpoint: ctx.checkpoint.label,
+          attribute: attr.code,
+          value: valueOf(attr.kind, row as ObservationRow),
+          method: row.method,
+          verdict: row.verdict,
+          notDoneReason: row.notDoneReason ?? undefined,
+        },
+      })),
+    );
+    await openInvestigations(
+      tx,
+      who,
+      ctx.study,
+      rows.flatMap((r, i) =>
+        r.verdict === 'fail'
+          ? [
+              {
+                observationId: ids[i].id,
+                sampleId: ctx.sample.id,
+                sampleCode: ctx.sample.code,
+                checkpointId,
+                checkpointLabel: ctx.checkpoint.label,
+                studyAttributeId: r.studyAttributeId,
+                attributeName: r.attr.name,
+                value: valueOf(r.attr.kind, r as ObservationRow)!,
+                message: r.message,
+              },
+            ]
+          : [],
+      ),
+    );
+    await settleCheckpoint(tx, checkpointId, who.id);
+  });
+}

@@ -1,0 +1,267 @@
+/** Study plans: checks against the lab's data, the preview (calendar, readings, warnings), saving a draft. */
+import { and, asc, eq, inArray } from 'drizzle-orm';
+import { CRITERION_KINDS_BY_ATTRIBUTE } from '../../../shared/compute/criteria';
+import { dayZeroAllowed, isDayZero, readingCounts, studyCalendar, type ControlPull } from '../../../shared/compute/study-calendar';
+import { addDays } from '../../../shared/compute/schedule';
+import type { ConditionKind } from '../../../shared/domain';
+import { cautionLines } from '../../../shared/storage-presets';
+import type { PlanPreview, StudyPlanInput } from '../../../shared/schemas/studies';
+import type { Db, DbOrTx } from '../../db/client';
+import { attributes, batches, products, storageConditions, studies, studyAttributes, studyBatches, studyConditions, users, variants } from '../../db/schema';
+import { conflict, HttpError, notFound } from '../../http/errors';
+import { audit } from '../audit';
+import { bad, cycleHoursOf, type Actor } from './common';
+
+export interface CheckedPlan {
+  product: { id: number; name: string; type: string };
+  conditionRows: (typeof storageConditions.$inferSelect)[];
+  attributeRows: (typeof attributes.$inferSelect)[];
+}
+
+/** Checks every id of a plan belongs to the lab and fits together; 400/404 naming the field. */
+export async function checkPlan(db: DbOrTx, labId: number, plan: StudyPlanInput): Promise<CheckedPlan> {
+  const [product] = await db
+    .select({ id: products.id, name: products.name, type: products.type })
+    .from(products)
+    .where(and(eq(products.labId, labId), eq(products.id, plan.productId)));
+  if (!product) throw new HttpError(404, 'not_found', 'No such product in your lab', { productId: 'No such product in your lab' });
+
+  const fields: Record<string, string> = {};
+  const dupes = (ids: (number | string)[]) => ids.findIndex((v, i) => ids.indexOf(v) !== i);
+
+  const batchRows = await db
+    .select({ id: batches.id, productId: variants.productId })
+    .from(batches)
+    .innerJoin(variants, eq(variants.id, batches.variantId))
+    .where(and(eq(batches.labId, labId), inArray(batches.id, plan.batchIds)));
+  plan.batchIds.forEach((bid, i) => {
+    const row = batchRows.find((b) => b.id === bid);
+    if (!row) fields[`batchIds.${i}`] = 'No such batch in your lab';
+    else if (row.productId !== product.id) fields[`batchIds.${i}`] = 'This batch is of another product';
+  });
+  if (dupes(plan.batchIds) >= 0) fields[`batchIds.${dupes(plan.batchIds)}`] = 'Listed twice';
+
+  const conditionIds = plan.conditions.map((c) => c.conditionId);
+  const conditionRows = await db
+    .select()
+    .from(storageConditions)
+    .where(and(eq(storageConditions.labId, labId), inArray(storageConditions.id, conditionIds)));
+  plan.conditions.forEach((pc, i) => {
+    const row = conditionRows.find((c) => c.id === pc.conditionId);
+    if (!row) {
+      fields[`conditions.${i}.conditionId`] = 'No such storage condition in your lab';
+      return;
+    }
+    if (!row.active) fields[`conditions.${i}.conditionId`] = 'This storage condition is no longer in use';
+    const cycleHours = cycleHoursOf(row);
+    pc.offsets.forEach((o, j) => {
+      if (o.unit === 'cycle' && cycleHours == null) {
+        fields[`conditions.${i}.offsets.${j}.unit`] = 'Cycle checkpoints need a cycling condition (freeze-thaw)';
+      } else if (isDayZero(o) && !dayZeroAllowed(row.kind)) {
+        fields[`conditions.${i}.offsets.${j}`] = 'Day 0 is the initial test, done once per batch for the whole study: remove it here';
+      }
+    });
+    const keys = pc.offsets.map((o) => `${o.unit}:${o.n}`);
+    const d = dupes(keys);
+    if (d >= 0) fields[`conditions.${i}.offsets.${d}`] = 'This checkpoint is listed twice';
+    if (pc.role === 'control' && !pc.pairControl) fields[`conditions.${i}.pairControl`] = 'The control is what the pulls are paired with';
+  });
+  if (dupes(conditionIds) >= 0) fields[`conditions.${dupes(conditionIds)}.conditionId`] = 'Listed twice';
+
+  const attributeIds = plan.attributes.map((a) => a.attributeId);
+  const attributeRows = await db
+    .select()
+    .from(attributes)
+    .where(and(eq(attributes.labId, labId), inArray(attributes.id, attributeIds)));
+  plan.attributes.forEach((pa, i) => {
+    const row = attributeRows.find((a) => a.id === pa.attributeId);
+    if (!row) {
+      fields[`attributes.${i}.attributeId`] = 'No such attribute in your lab';
+      return;
+    }
+    if (!CRITERION_KINDS_BY_ATTRIBUTE[row.kind].includes(pa.criterion.kind)) {
+      fields[`attributes.${i}.criterion.kind`] = `A ${row.kind.replace('_', '/')} attribute cannot use this kind of criterion`;
+    }
+    const c = pa.criterion;
+    if (c.kind === 'worst_grade' && row.scale && !row.scale.some((s) => s.grade === c.grade)) {
+      fields[`attributes.${i}.criterion.grade`] = 'Not a grade of this attribute’s scale';
+    }
+  });
+  if (dupes(attributeIds) >= 0) fields[`attributes.${dupes(attributeIds)}.attributeId`] = 'Listed twice';
+
+  if (plan.responsibleId != null) {
+    const [who] = await db
+      .select({ id: users.id })
+      .from(users)
+      .where(and(eq(users.labId, labId), eq(users.id, plan.responsibleId), eq(users.active, true)));
+    if (!who) fields.responsibleId = 'No such active member in your lab';
+  }
+
+  if (Object.keys(fields).length) throw bad(fields);
+  return { product, conditionRows, attributeRows };
+}
+
+/** The calendar of a checked plan: initial test, pulls paired with same-day control readings (shared/compute/study-calendar.ts). */
+export function planCalendar(plan: StudyPlanInput, checked: CheckedPlan) {
+  return studyCalendar(
+    plan.startDate,
+    plan.conditions.map((pc, i) => {
+      const row = checked.conditionRows.find((c) => c.id === pc.conditionId)!;
+      return {
+        key: i,
+        name: row.name,
+        role: pc.role,
+        kind: row.kind,
+        offsets: pc.offsets,
+        cycleHours: cycleHoursOf(row) ?? undefined,
+        pairControl: pc.pairControl,
+        pairingOffReason: pc.pairingOffReason ?? null,
+      };
+    }),
+  );
+}
+
+export function previewPlan(plan: StudyPlanInput, checked: CheckedPlan): PlanPreview {
+  const calendar = planCalendar(plan, checked);
+  const warnings: string[] = [];
+  const rowOf = (i: number) => checked.conditionRows.find((c) => c.id === plan.conditions[i].conditionId)!;
+  const perCondition = calendar.conditions.map((c) => {
+    const row = rowOf(c.key);
+    const weekend = c.pulls.filter((s) => s.warnings.includes('weekend'));
+    if (weekend.length) {
+      warnings.push(`${row.name}: ${weekend.map((s) => `${s.label} (${s.dueDate})`).join(', ')} fall on a weekend; the window allows moving the check to a weekday.`);
+    }
+    return {
+      conditionId: row.id,
+      name: row.name,
+      checkpoints: c.pulls.map((s) => ({
+        label: s.label,
+        dueDate: s.dueDate,
+        windowStart: s.windowStart,
+        windowEnd: s.windowEnd,
+        warnings: s.warnings,
+        ...('serves' in s
+          ? { serves: (s as ControlPull).serves.map((x) => `${x.name} ${x.label}`), added: (s as ControlPull).added }
+          : { controlDate: s.controlDate }),
+      })),
+    };
+  });
+  warnings.push(...calendar.warnings);
+  const hasControl = calendar.controlKey != null || plan.conditions.some((pc) => checked.conditionRows.find((c) => c.id === pc.conditionId)?.isControl);
+  const compared = checked.attributeRows.filter((a) => a.kind === 'compared');
+  if (!hasControl && compared.length) warnings.push(`${compared.map((a) => a.name).join(', ')} compare with a control that this plan does not have.`);
+  const kinds = new Map<number, ConditionKind>(plan.conditions.map((_, i) => [i, rowOf(i).kind]));
+  const readings = readingCounts(calendar, kinds, plan.batchIds.length, plan.samplesPerCell, plan.attributes.length);
+  // Containers: one set per condition and batch, plus the batch's retained samples for the initial test.
+  const sampleCount = plan.batchIds.length * (plan.conditions.length + 1) * plan.samplesPerCell;
+  return {
+    sampleCount,
+    containerCount: sampleCount,
+    gramsPerBatch: plan.fillGrams ? Math.round((plan.conditions.length + 1) * plan.samplesPerCell * plan.fillGrams * 100) / 100 : null,
+    initial: {
+      label: calendar.initial.label,
+      dueDate: calendar.initial.dueDate,
+      windowEnd: addDays(calendar.initial.dueDate, calendar.initial.windowAfter),
+      samples: plan.batchIds.length * plan.samplesPerCell,
+    },
+    readings,
+    perCondition,
+    warnings,
+    cautions: cautionLines(plan.conditions.map((pc) => checked.conditionRows.find((c) => c.id === pc.conditionId)!)),
+  };
+}
+
+export async function savePlan(db: Db, actor: Actor, plan: StudyPlanInput, studyId?: number): Promise<number> {
+  return db.transaction(async (tx) => {
+    await checkPlan(tx, actor.labId, plan);
+    let id = studyId;
+    let old: unknown = null;
+    if (id != null) {
+      const [row] = await tx
+        .select()
+        .from(studies)
+        .where(and(eq(studies.labId, actor.labId), eq(studies.id, id)))
+        .for('update');
+      if (!row) throw notFound('No such study in your lab');
+      if (row.status !== 'draft') throw conflict('This study has started: change it with an amendment and a reason');
+      old = await planOf(tx, id);
+      await tx.update(studies).set(studyColumns(plan)).where(eq(studies.id, id));
+      await tx.delete(studyBatches).where(eq(studyBatches.studyId, id));
+      await tx.delete(studyConditions).where(eq(studyConditions.studyId, id));
+      await tx.delete(studyAttributes).where(eq(studyAttributes.studyId, id));
+    } else {
+      [{ id }] = await tx
+        .insert(studies)
+        .values({ ...studyColumns(plan), labId: actor.labId, createdBy: actor.id })
+        .$returningId();
+    }
+    await tx.insert(studyBatches).values(plan.batchIds.map((batchId) => ({ studyId: id!, batchId, labId: actor.labId })));
+    await tx.insert(studyConditions).values(
+      plan.conditions.map((pc, position) => ({
+        labId: actor.labId,
+        studyId: id!,
+        conditionId: pc.conditionId,
+        role: pc.role,
+        position,
+        offsets: pc.offsets,
+        template: pc.template ?? null,
+        pairControl: pc.pairControl,
+        pairingOffReason: pc.pairControl ? null : (pc.pairingOffReason ?? null),
+      })),
+    );
+    await tx.insert(studyAttributes).values(
+      plan.attributes.map((pa, position) => ({ labId: actor.labId, studyId: id!, attributeId: pa.attributeId, position, criterion: pa.criterion })),
+    );
+    await audit(tx, {
+      labId: actor.labId,
+      userId: actor.id,
+      action: studyId == null ? 'create' : 'update',
+      entity: 'study',
+      entityId: id,
+      oldValue: old,
+      newValue: plan,
+    });
+    return id!;
+  });
+}
+
+function studyColumns(plan: StudyPlanInput) {
+  return {
+    productId: plan.productId,
+    title: plan.title,
+    startDate: plan.startDate,
+    responsibleId: plan.responsibleId ?? null,
+    samplesPerCell: plan.samplesPerCell,
+    containerDescription: plan.containerDescription,
+    fillGrams: plan.fillGrams ?? null,
+    notes: plan.notes ?? null,
+  };
+}
+
+/** The stored plan in the input's shape (for audit rows and editing). */
+export async function planOf(db: DbOrTx, studyId: number): Promise<StudyPlanInput> {
+  const [s] = await db.select().from(studies).where(eq(studies.id, studyId));
+  const b = await db.select({ batchId: studyBatches.batchId }).from(studyBatches).where(eq(studyBatches.studyId, studyId));
+  const c = await db.select().from(studyConditions).where(eq(studyConditions.studyId, studyId)).orderBy(asc(studyConditions.position));
+  const a = await db.select().from(studyAttributes).where(eq(studyAttributes.studyId, studyId)).orderBy(asc(studyAttributes.position));
+  return {
+    productId: s.productId,
+    title: s.title,
+    startDate: s.startDate,
+    batchIds: b.map((r) => r.batchId),
+    conditions: c.map((r) => ({
+      conditionId: r.conditionId,
+      role: r.role,
+      template: r.template,
+      offsets: r.offsets,
+      pairControl: r.pairControl,
+      pairingOffReason: r.pairingOffReason,
+    })),
+    attributes: a.map((r) => ({ attributeId: r.attributeId, criterion: r.criterion })),
+    samplesPerCell: s.samplesPerCell,
+    containerDescription: s.containerDescription,
+    fillGrams: s.fillGrams,
+    responsibleId: s.responsibleId,
+    notes: s.notes,
+  };
+}
