@@ -165,10 +165,11 @@ describe('Record on a tablet', () => {
     expect(await page.getByTestId('record-cautions').getByTestId('caution-hot').textContent()).toContain('heat-resistant gloves');
     expect(await page.getByTestId('record-cautions').getByTestId('caution-rules').textContent()).toContain('local regulations');
 
-    // The control of this batch has not been read today: the screen says so first, with the way there.
+    // The control of this batch has not been read for this pull: the screen says so first, with the way there.
     const control = fridgeSamples().find((s) => s.batchId === first.batchId)!;
     const notice = (await page.getByTestId('control-notice').textContent()) ?? '';
-    expect(notice).toContain(`The control (sample ${control.code}, Week 1) has not been read today: read it first`);
+    expect(notice).toContain(`The control (sample ${control.code}, Week 1), due `);
+    expect(notice).toContain('is not recorded yet: read it first');
     expect(await page.getByTestId('control-notice-link').getAttribute('href')).toBe(`/samples/${control.code}/checkpoints/${cp('Week 1', 0).id}`);
     expect(await card(page, 'odor').getByTestId('ref-control').textContent()).toContain('not read yet');
     await settle(page);
