@@ -200,17 +200,15 @@ describe('summarizeChamberLog', () => {
     expect(s.excursions).toEqual([]);
   });
 
-  it('handles a year of minute readings well under a second', () => {
+  // Its speed is measured by `npm run bench` (chamber), not here: a timed test fails on a busy machine.
+  it('summarises a year of minute readings', () => {
     // Constructed edge case: 525 600 one-minute readings at 25 °C with one 90-minute excursion to 31 °C.
     const n = 525_600;
     const log: ChamberReading[] = new Array(n);
     for (let i = 0; i < n; i++) {
       log[i] = { at: T0 + i * 60_000, tempC: i >= 1000 && i < 1090 ? 31 : 25 + ((i % 7) - 3) * 0.1, rh: 60 };
     }
-    const started = performance.now();
     const s = summarizeChamberLog(log, { setpointC: 25, rhSetpoint: 60 });
-    const elapsed = performance.now() - started;
-    expect(elapsed).toBeLessThan(1000);
     expect(s.count).toBe(n);
     expect(s.hoursOutOfTolerance).toBeCloseTo(1.5, 9);
     expect(s.excursions).toHaveLength(1);
