@@ -42,16 +42,12 @@ export const buildDigest: BuildDigest = async (db, member, today, ctx) => {
   let count = 0;
 
   if (member.role === 'technician') {
-    const work = await bench(db, member.labId, today, 2);
-    const mine = await db
-      .select({ id: studies.id })
-      .from(studies)
-      .where(and(eq(studies.labId, member.labId), eq(studies.responsibleId, member.id), eq(studies.status, 'running')));
-    const ids = new Set(mine.map((s) => s.id));
+    // The Bench lists running studies only; `mine`: one of the people responsible (study_responsibles).
+    const work = await bench(db, member.labId, today, 2, member.id);
     for (const g of work.groups) {
       const items: { text: string; url?: string; note?: string }[] = [];
       for (const c of g.conditions) {
-        for (const cp of c.checkpoints.filter((x) => ids.has(x.study.id))) {
+        for (const cp of c.checkpoints.filter((x) => x.study.mine)) {
           const when = cp.state === 'upcoming' ? `window opens ${cp.windowStart}` : cp.state === 'overdue' ? `window closed ${cp.windowEnd}` : `until ${cp.windowEnd}`;
           for (const s of cp.samples.filter((x) => x.recorded < cp.attributeCount)) {
             items.push({

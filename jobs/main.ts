@@ -9,7 +9,7 @@ import { openDatabase } from '../server/boot';
 import { loadConfig } from '../server/config';
 import { createLogger } from '../server/log';
 import { mailerFor } from '../server/mail/mailer';
-import { REMINDER_CRON, startReminderJob } from './reminders';
+import { REMINDER_CRON, startReminderJob, tick } from './reminders';
 
 const config = loadConfig();
 const log = createLogger();
@@ -42,6 +42,16 @@ const database = await openDatabase(config, log, { migrate: false }).catch((err:
 const { db } = database;
 const mailer = mailerFor({ db, config, log });
 const fake = await mailer.start();
+
+// `npm run jobs -- --once`: one run now, its counts as JSON, then exit (for an outside scheduler, and test:cluster).
+if (process.argv.includes('--once')) {
+  const report = await tick({ db, mailer, log, config, now: new Date() });
+  console.log(JSON.stringify(report));
+  await mailer.close();
+  await database.close();
+  process.exit(0);
+}
+
 const job = startReminderJob({ db, mailer, log, config });
 
 console.log(`Keepwell reminder job running (${REMINDER_CRON}).`);

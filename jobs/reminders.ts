@@ -22,6 +22,8 @@ import { randomBytes } from 'node:crypto';
 import { and, eq, sql } from 'drizzle-orm';
 import cron, { type ScheduledTask } from 'node-cron';
 import { pruneGuards } from '../server/auth/lockout';
+import { pruneRateLimits } from '../server/http/rate-limit-store';
+import { sweepStaleImports } from '../server/services/chamber-logs';
 import { isValidTimeZone } from '../shared/compute/schedule';
 import type { Config } from '../server/config';
 import type { Db } from '../server/db/client';
@@ -90,6 +92,11 @@ function isDuplicate(err: unknown): boolean {
   return e?.errno === 1062 || e?.cause?.errno === 1062;
 }
 
+function isDeadlock(err: unknown): boolean {
+  const e = err as { errno?: number; cause?: { errno?: number } };
+  return e?.errno === 1213 || e?.cause?.errno === 1213;
+}
+
 export interface Claim {
   id: number;
   token: string;
@@ -110,14 +117,20 @@ export async function claimReminder(
   staleClaimMinutes = STALE_CLAIM_MINUTES,
 ): Promise<Claim | null> {
   const token = randomBytes(16).toString('hex');
-  try {
-    const [{ id }] = await db
-      .insert(reminders)
-      .values({ labId: m.labId, userId: m.userId, kind, labLocalDate, status: 'claimed', claimToken: token, attempts: 1, claimedAt: now })
-      .$returningId();
-    return { id, token, attempts: 1 };
-  } catch (err) {
-    if (!isDuplicate(err)) throw err;
+  for (let attempt = 1; ; attempt++) {
+    try {
+      const [{ id }] = await db
+        .insert(reminders)
+        .values({ labId: m.labId, userId: m.userId, kind, labLocalDate, status: 'claimed', claimToken: token, attempts: 1, claimedAt: now })
+        .$returningId();
+      return { id, token, attempts: 1 };
+    } catch (err) {
+      if (isDuplicate(err)) break;
+      // On a Galera cluster the same claim inserted on two nodes at once fails certification on one
+      // (a deadlock error); trying again then finds the other's row as a duplicate.
+      if (!isDeadlock(err) || attempt >= 3) throw err;
+      await new Promise((r) => setTimeout(r, 10 * attempt));
+    }
   }
   const [row] = await db
     .select()
@@ -249,8 +262,11 @@ export function startReminderJob(o: Omit<TickOptions, 'now'> & { schedule?: stri
     o.schedule ?? REMINDER_CRON,
     async () => {
       try {
-        // Housekeeping that any instance may do: forget idle wrong-password counts.
+        // Housekeeping that any instance may do: forget idle wrong-password counts and ended rate-limit
+        // windows, and remove chamber-log imports that stopped half-way.
         await pruneGuards(o.db, new Date());
+        await pruneRateLimits(o.db);
+        await sweepStaleImports(o.db, new Date());
         const r = await runOnce();
         if (r.sent || r.failed) o.log.info(`reminders: ${r.sent} sent, ${r.failed} failed, ${r.skipped} with nothing to say`);
       } catch (err) {

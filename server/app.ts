@@ -8,13 +8,15 @@ import { fileURLToPath } from 'node:url';
 import { join, resolve } from 'node:path';
 import express from 'express';
 import session from 'express-session';
-import MySQLStoreFactory from 'express-mysql-session';
 import helmet from 'helmet';
 import type { Config } from './config';
 import type { Db, Pool } from './db/client';
 import { createPassport } from './auth/passport';
+import { KeepwellSessionStore } from './auth/session-store';
 import { csrfGuard } from './http/csrf';
 import { apiNotFound, errorHandler } from './http/errors';
+import { SqlRateLimitStore } from './http/rate-limit-store';
+import { fileStoreFromConfig, folderStore, type FileStore } from './files';
 import type { Logger } from './log';
 import { authRoutes } from './routes/auth';
 import { healthRoute, labRoutes } from './routes/lab';
@@ -22,6 +24,7 @@ import { memberRoutes } from './routes/members';
 import { formulaRoutes } from './routes/formulas';
 import { storageRoutes } from './routes/storage';
 import { studyRoutes } from './routes/studies';
+import { studyTemplateRoutes } from './routes/study-templates';
 import { recordRoutes } from './routes/records';
 import { reviewRoutes } from './routes/reviews';
 import { accountRoutes } from './routes/account';
@@ -42,7 +45,14 @@ export interface AppDeps {
   serveClient?: boolean;
   /** Where photos are stored (outside the web root); defaults to DATA_DIR/uploads. */
   uploadsDir?: string;
+  /** The file store (photos, chamber-log files); by default from the settings (S3_BUCKET) or uploadsDir. */
+  files?: FileStore;
 }
+
+const noStore: express.RequestHandler = (_req, res, next) => {
+  res.set('Cache-Control', 'no-store');
+  next();
+};
 
 export function createApp(deps: AppDeps) {
   const { db, pool, config, log } = deps;
@@ -74,22 +84,16 @@ export function createApp(deps: AppDeps) {
     }),
   );
 
-  const MySQLStore = MySQLStoreFactory(session);
   const idleMs = config.SESSION_IDLE_MINUTES * 60_000;
-  const store = new MySQLStore(
-    {
-      createDatabaseTable: false,
-      endConnectionOnClose: false,
-      clearExpired: true,
-      checkExpirationInterval: 15 * 60_000,
-      expiration: idleMs,
-    },
-    pool,
-  );
+  // One statement reads the session with its member; the expiry is rewritten at most every few minutes.
+  const store = new KeepwellSessionStore(pool, idleMs);
 
   const passport = createPassport(db, log);
+  const files = deps.files ?? (deps.uploadsDir ? folderStore(resolve(deps.uploadsDir)) : fileStoreFromConfig(config));
 
   const api = express.Router();
+  // Before the body parser, the session and passport: the health check needs none of them.
+  api.use('/health', noStore, healthRoute(db));
   api.use(express.json({ limit: '256kb', strict: true }));
   api.use(
     session({
@@ -104,11 +108,7 @@ export function createApp(deps: AppDeps) {
   );
   api.use(passport.initialize());
   api.use(passport.session());
-  api.use((_req, res, next) => {
-    res.set('Cache-Control', 'no-store');
-    next();
-  });
-  api.use('/health', healthRoute(db));
+  api.use(noStore);
   api.use(csrfGuard(config.PUBLIC_URL ? new URL(config.PUBLIC_URL).origin : undefined));
   api.use(
     '/auth',
@@ -118,18 +118,18 @@ export function createApp(deps: AppDeps) {
       cookieName: SESSION_COOKIE,
       ipLimit: deps.signInIpLimit ?? 30,
       ipWindowMs: deps.signInIpWindowMs ?? 15 * 60_000,
+      ipStore: new SqlRateLimitStore(pool, 'sign-in'),
       httpsOrigin: config.secureCookies && config.PUBLIC_URL ? new URL(config.PUBLIC_URL).origin : undefined,
     }),
   );
   api.use('/lab', labRoutes(db));
   api.use('/members', memberRoutes(db));
   api.use(formulaRoutes(db));
-  api.use(storageRoutes(db));
+  api.use(storageRoutes(db, files));
   api.use(studyRoutes(db));
-  // Absolute: res.sendFile refuses relative paths, and DATA_DIR defaults to the relative '.data'.
-  const uploadsDir = resolve(deps.uploadsDir ?? join(config.DATA_DIR, 'uploads'));
-  api.use(recordRoutes(db, uploadsDir));
-  api.use(reviewRoutes(db, log, uploadsDir));
+  api.use(studyTemplateRoutes(db));
+  api.use(recordRoutes(db, files));
+  api.use(reviewRoutes(db, log, files));
   api.use(oosRoutes(db));
   api.use(accountRoutes({ db, config, log }));
   api.use(apiNotFound);

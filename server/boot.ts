@@ -43,9 +43,11 @@ export async function openDatabase(config: Config, log: Logger, opts: { fast?: b
       await launched.stop();
       throw err;
     }
-    target = launched.app;
+    // Over the socket: each query costs less than over TCP on 127.0.0.1 (the account exists for both).
+    target = { ...launched.app, host: undefined, port: undefined, socketPath: launched.admin.socketPath };
   }
-  const pool = createPool(target);
+  const pool = createPool(target, undefined, config.DATABASE_HOSTS);
+  await warnAboutCluster(pool, log);
   if (config.DATABASE_URL && opts.migrate === false) {
     try {
       await assertSchemaCurrent(pool);
@@ -64,6 +66,22 @@ export async function openDatabase(config: Config, log: Logger, opts: { fast?: b
       await launched?.stop();
     },
   };
+}
+
+/**
+ * On a Galera node, reads must wait for writes already committed on other nodes (wsrep_sync_wait=1):
+ * otherwise a session made through one instance may not be seen by the next request on another.
+ */
+async function warnAboutCluster(pool: Pool, log: Logger): Promise<void> {
+  try {
+    const [rows] = (await pool.query('SELECT @@wsrep_on AS galera, @@wsrep_sync_wait AS syncWait')) as unknown as [{ galera: number; syncWait: number }[]];
+    const r = rows[0];
+    if (r && Number(r.galera) === 1 && (Number(r.syncWait) & 1) === 0) {
+      log.warn('This MariaDB is a Galera node with wsrep_sync_wait=0: set wsrep_sync_wait=1 on every node (README, "Running on more than one machine"), or a request may miss what another instance just wrote.');
+    }
+  } catch {
+    // Not MariaDB with wsrep variables, or not reachable yet: nothing to say.
+  }
 }
 
 /** SESSION_SECRET, or one generated once and kept in the data folder. */

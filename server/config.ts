@@ -26,8 +26,28 @@ const schema = z.object({
   SMTP_SECURE: z.enum(['true', 'false']).default('false'),
   /** The sender, e.g. `Keepwell <keepwell@yourlab.com>`. */
   MAIL_FROM: z.string().min(3).max(200).default('Keepwell <keepwell@localhost>'),
+  /**
+   * Photos and chamber-log files in an S3-compatible bucket instead of DATA_DIR/uploads (several instances
+   * need one shared store). Credentials: the AWS SDK's usual sources (AWS_ACCESS_KEY_ID, AWS_SECRET_ACCESS_KEY, ...).
+   */
+  S3_BUCKET: z.string().min(3).max(63).optional(),
+  /** The store's address for a non-AWS store, e.g. http://127.0.0.1:9000. */
+  S3_ENDPOINT: z.string().url().optional(),
+  S3_REGION: z.string().min(1).optional(),
+  /** 'true' for stores that want the bucket in the path (most local and self-hosted ones). */
+  S3_FORCE_PATH_STYLE: z.enum(['true', 'false']).default('false'),
+  /**
+   * More than one database server (a Galera cluster without a proxy in front): host:port list, tried in
+   * order; replaces the host of DATABASE_URL. When one stops answering, new connections go to the next.
+   */
+  DATABASE_HOSTS: z
+    .string()
+    .regex(/^[A-Za-z0-9.:[\]-]+:\d{1,5}(,[A-Za-z0-9.:[\]-]+:\d{1,5})*$/, 'host:port,host:port,...')
+    .optional(),
   /** Run the reminder job inside the app process ('false' when `npm run jobs` runs it elsewhere). */
   JOBS_IN_APP: z.enum(['true', 'false']).default('true'),
+  /** Worker processes `npm start` serves from (server/start.ts); default one per core; 1 serves from a single process. */
+  WORKERS: z.coerce.number().int().min(1).max(64).optional(),
 });
 
 /** Where mail goes: a real SMTP service, or null for the local fake one. */
@@ -52,6 +72,12 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   const smtp: SmtpSettings | null = c.SMTP_HOST
     ? { host: c.SMTP_HOST, port: c.SMTP_PORT ?? (secure ? 465 : 587), secure, user: c.SMTP_USER, password: c.SMTP_PASSWORD }
     : null;
+  if ((c.S3_ENDPOINT || c.S3_REGION) && !c.S3_BUCKET) {
+    throw new Error('Invalid settings in the environment:\n  S3_BUCKET: required when S3_ENDPOINT or S3_REGION is set');
+  }
+  if (c.DATABASE_HOSTS && !c.DATABASE_URL) {
+    throw new Error('Invalid settings in the environment:\n  DATABASE_URL: required when DATABASE_HOSTS is set (it gives the account and database)');
+  }
   if (!smtp && (c.SMTP_PORT || c.SMTP_USER || c.SMTP_PASSWORD)) {
     throw new Error('Invalid settings in the environment:\n  SMTP_HOST: required when SMTP_PORT, SMTP_USER or SMTP_PASSWORD is set');
   }

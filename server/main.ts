@@ -1,12 +1,17 @@
-/** `npm start`: database, demo lab, API and built client in one process. */
+/**
+ * One app process: database, demo lab, API and built client (`npm run dev:server`, and `npm start` with
+ * WORKERS=1). With KW_ROLE=worker it is one of the workers server/start.ts forks: it connects to
+ * DATABASE_URL without migrating and serves requests; the primary launched MariaDB and loaded the demo.
+ */
+import cluster from 'node:cluster';
 import { performance } from 'node:perf_hooks';
-import { join } from 'node:path';
 import type { Server } from 'node:http';
 import { createApp } from './app';
 import { openDatabase, sessionSecret } from './boot';
 import { loadConfig } from './config';
 import { DEMO_LABS, DEMO_PASSWORD } from './demo/people';
 import { databaseIsEmpty, seedDemo } from './demo/seed';
+import { openFileStore } from './files';
 import { createLogger } from './log';
 import { mailerFor, outboxAvailable } from './mail/mailer';
 import { startReminderJob, type ReminderJob } from '../jobs/reminders';
@@ -14,12 +19,20 @@ import { startReminderJob, type ReminderJob } from '../jobs/reminders';
 const t0 = performance.now();
 const config = loadConfig();
 const log = createLogger();
+const worker = process.env.KW_ROLE === 'worker';
+if (worker && !config.DATABASE_URL) throw new Error('A worker process needs DATABASE_URL (server/start.ts sets it)');
 
-const database = await openDatabase(config, log);
+const database = await openDatabase(config, log, { migrate: !worker });
 const { db, pool } = database;
+// Photos and chamber-log files: DATA_DIR/uploads, or the bucket of S3_BUCKET (checked: write, read, delete).
+const files = await openFileStore(config).catch(async (err: Error) => {
+  log.error(err.message);
+  await database.close();
+  process.exit(1);
+});
 
 if (config.LOAD_DEMO === 'auto' && (await databaseIsEmpty(db))) {
-  await seedDemo(db, { content: 'full', uploadsDir: join(config.DATA_DIR, 'uploads') });
+  await seedDemo(db, { content: 'full', files });
   log.info('Loaded the demo labs (invented data).');
 }
 
@@ -27,7 +40,7 @@ if (config.LOAD_DEMO === 'auto' && (await databaseIsEmpty(db))) {
 const mailer = mailerFor({ db, config, log });
 const fakeSmtp = await mailer.start();
 
-const { app, close: closeApp } = createApp({ db, pool, config, log, sessionSecret: sessionSecret(config) });
+const { app, close: closeApp } = createApp({ db, pool, config, log, sessionSecret: sessionSecret(config), files });
 
 const server: Server = app.listen(config.PORT, config.HOST);
 await new Promise<void>((resolve, reject) => {
@@ -41,23 +54,26 @@ await new Promise<void>((resolve, reject) => {
 
 const addr = server.address();
 const port = typeof addr === 'object' && addr ? addr.port : config.PORT;
-console.log(`\nKeepwell is running at http://${config.HOST}:${port}/  (ready in ${Math.round(performance.now() - t0)} ms)`);
+// A worker says one line; the primary (server/start.ts) prints the rest once.
+const say = worker ? () => {} : console.log;
+if (worker) console.log(`Worker ${process.pid} serving http://${config.HOST}:${port}/`);
+say(`\nKeepwell is running at http://${config.HOST}:${port}/  (ready in ${Math.round(performance.now() - t0)} ms)`);
 if (config.LOAD_DEMO === 'auto') {
-  console.log(`Demo sign-ins (password for all: ${DEMO_PASSWORD}):`);
-  for (const lab of DEMO_LABS) for (const p of lab.people) console.log(`  ${p.email.padEnd(30)} ${p.role.padEnd(11)} ${lab.name}`);
+  say(`Demo sign-ins (password for all: ${DEMO_PASSWORD}):`);
+  for (const lab of DEMO_LABS) for (const p of lab.people) say(`  ${p.email.padEnd(30)} ${p.role.padEnd(11)} ${lab.name}`);
 }
 if (fakeSmtp) {
-  console.log(`E-mail: no SMTP settings, so messages go to a local fake SMTP service (${fakeSmtp.host}:${fakeSmtp.port}) and are not delivered.`);
-  if (outboxAvailable(config)) console.log(`  Read them on the Outbox page (owners): http://${config.HOST}:${port}/lab/outbox`);
-  else log.warn('NODE_ENV=production without SMTP settings: e-mail (invitations, password resets, reminders) is not delivered. Set SMTP_HOST.');
+  say(`E-mail: no SMTP settings, so messages go to a local fake SMTP service (${fakeSmtp.host}:${fakeSmtp.port}) and are not delivered.`);
+  if (outboxAvailable(config)) say(`  Read them on the Outbox page (owners): http://${config.HOST}:${port}/lab/outbox`);
+  else if (!worker) log.warn('NODE_ENV=production without SMTP settings: e-mail (invitations, password resets, reminders) is not delivered. Set SMTP_HOST.');
 } else if (config.smtp) {
-  console.log(`E-mail: through ${config.smtp.host}:${config.smtp.port} as ${config.MAIL_FROM}`);
+  say(`E-mail: through ${config.smtp.host}:${config.smtp.port} as ${config.MAIL_FROM}`);
 }
 
 // The morning reminder job, in this process unless it runs alone (`npm run jobs`).
 let reminderJob: ReminderJob | null = null;
 if (config.JOBS_IN_APP === 'true') reminderJob = startReminderJob({ db, mailer, log, config });
-console.log('Press Ctrl-C to stop.\n');
+say('Press Ctrl-C to stop.\n');
 
 let stopping = false;
 async function shutdown(signal: string) {
@@ -79,3 +95,5 @@ async function shutdown(signal: string) {
 }
 process.on('SIGINT', () => void shutdown('SIGINT'));
 process.on('SIGTERM', () => void shutdown('SIGTERM'));
+// A worker whose primary has gone stops too.
+if (cluster.isWorker) process.on('disconnect', () => void shutdown('primary gone'));

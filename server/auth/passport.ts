@@ -1,5 +1,6 @@
 import bcrypt from 'bcryptjs';
 import { eq } from 'drizzle-orm';
+import type { Request } from 'express';
 import { Passport } from 'passport';
 import { Strategy as LocalStrategy } from 'passport-local';
 import type { Db } from '../db/client';
@@ -9,6 +10,7 @@ import type { Logger } from '../log';
 import { claimAttempt, LOCKOUT, lockedError, passwordAccepted } from './lockout';
 import { BCRYPT_ROUNDS } from './password-policy';
 import { loadMember } from './session-user';
+import { prefetchedMember, setSessionVersion } from './session-store';
 
 /** A bcrypt hash of a random string: compared when the e-mail is unknown so timing does not tell. */
 const DUMMY_HASH = bcrypt.hashSync('keepwell-no-such-user', BCRYPT_ROUNDS);
@@ -45,11 +47,15 @@ export function createPassport(db: Db, log: Logger) {
     }),
   );
 
-  passport.serializeUser((user, done) => done(null, user.id));
-  passport.deserializeUser((id: number, done) => {
-    loadMember(db, Number(id))
-      .then((u) => done(null, u ?? false))
-      .catch(done);
+  // The session keeps the member's id (in its JSON) and the users.version it was issued with (its own column).
+  passport.serializeUser((req: Request, user: Express.User, done: (err: unknown, id?: number) => void) => {
+    if (req.session) setSessionVersion(req.session, user.id, user.version);
+    done(null, user.id);
+  });
+  // The session store read the member with the session, in the same statement: no second query.
+  passport.deserializeUser((req: Request, id: number, done: (err: unknown, user?: Express.User | false) => void) => {
+    // Undefined: a stored session without the member's id in its own column (none after migration 0008) is not trusted.
+    done(null, prefetchedMember(req, Number(id)) ?? false);
   });
   return passport;
 }

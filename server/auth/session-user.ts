@@ -15,6 +15,8 @@ declare global {
       email: string;
       role: Role;
       labId: number;
+      /** users.version when the member was read (see server/auth/session-store.ts). */
+      version: number;
       lab: { id: number; name: string; timeZone: string; dateFormat: string };
     }
   }
@@ -29,6 +31,7 @@ export async function loadMember(db: Db, userId: number): Promise<Express.User |
       email: users.email,
       role: users.role,
       labId: users.labId,
+      version: users.version,
       labName: labs.name,
       timeZone: labs.timeZone,
       dateFormat: labs.dateFormat,
@@ -45,6 +48,7 @@ export async function loadMember(db: Db, userId: number): Promise<Express.User |
     email: r.email,
     role: r.role,
     labId: r.labId,
+    version: r.version,
     lab: { id: r.labId, name: r.labName, timeZone: r.timeZone, dateFormat: r.dateFormat },
   };
 }

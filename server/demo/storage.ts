@@ -12,11 +12,13 @@ import type { DbOrTx } from '../db/client';
 import { chamberLogs, storageConditions } from '../db/schema';
 import { audit } from '../services/audit';
 import { INSERT_BATCH, accumulatorOptions, bandFor, insertStatement, toLogSummary } from '../services/chamber-logs';
+import { HourlyRollups, writeRollups } from '../services/chamber-rollups';
 import { columnsOf } from '../services/storage-conditions';
 
 /** Invented locations of the demo lab's conditions. */
 export const DEMO_LOCATIONS: Record<PresetKey, string> = {
   'fridge-4': 'fridge 1',
+  room: 'shelf by the lab bench',
   'ich-25-60': 'climate cabinet',
   'ich-30-65': 'climate cabinet 2',
   'ich-40-75': 'climate cabinet 3',
@@ -111,6 +113,9 @@ export async function seedStorage(tx: DbOrTx, labId: number, userId: number): Pr
   for (let i = 0; i < readings.length; i += INSERT_BATCH) {
     await tx.execute(sql.raw(insertStatement(logId, labId, i, readings.slice(i, i + INSERT_BATCH))));
   }
+  const rollups = new HourlyRollups(accumulatorOptions(band));
+  rollups.addBatch(readings, 0);
+  await writeRollups(tx, logId, labId, rollups.rows());
   await audit(tx, {
     labId,
     userId,

@@ -88,6 +88,7 @@ const DATABASE_GONE = new Set([
   'ER_CON_COUNT_ERROR',
   'ER_CONNECTION_KILLED',
   'ER_CLIENT_INTERACTION_TIMEOUT',
+  'ER_UNKNOWN_COM_ERROR', // a Galera node outside the primary component: "WSREP has not yet prepared node for application use"
 ]);
 
 /** True when `err` (or the error a query builder wrapped) says the database went away. */
@@ -99,6 +100,11 @@ export function databaseUnavailable(err: unknown): boolean {
   return false;
 }
 
+function isDeadlockError(err: unknown): boolean {
+  for (let e = err as { errno?: number; cause?: unknown } | undefined, d = 0; e && d < 4; e = e.cause as typeof e, d++) if (e.errno === 1213) return true;
+  return false;
+}
+
 /** Seconds a client is asked to wait when the database is unreachable. */
 export const DATABASE_RETRY_SECONDS = 5;
 
@@ -106,11 +112,20 @@ export function errorHandler(log: (msg: string, err?: unknown) => void): ErrorRe
   return (err, req, res, _next) => {
     let e: HttpError;
     if (err instanceof HttpError) e = err;
+    // The file store (server/files): down or refusing means 503 for file routes only; a missing object 404.
+    else if (err?.name === 'StoreUnavailable') {
+      log(`File store unavailable on ${req.method} ${req.originalUrl}: answered 503`, (err as Error)?.message);
+      e = new HttpError(503, 'unavailable', 'The file store is not answering right now; try again in a few seconds', undefined, DATABASE_RETRY_SECONDS);
+    } else if (err?.name === 'FileMissing') e = new HttpError(404, 'not_found', 'The file is missing from storage');
     else if (databaseUnavailable(err)) {
       log(`Database unreachable on ${req.method} ${req.originalUrl}: answered 503`, (err as Error)?.message);
       e = new HttpError(503, 'unavailable', 'The database is not answering right now; try again in a few seconds', undefined, DATABASE_RETRY_SECONDS);
     }
-    else if (err?.type === 'entity.parse.failed') e = new HttpError(400, 'malformed_json', 'The request body is not valid JSON');
+    // Still a deadlock after the retries in server/db/client.ts: the same rows are being changed from elsewhere.
+    else if (isDeadlockError(err)) {
+      log(`Deadlock after retries on ${req.method} ${req.originalUrl}: answered 503`, (err as Error)?.message);
+      e = new HttpError(503, 'unavailable', 'These records are being changed by others right now; try again in a moment', undefined, 1);
+    } else if (err?.type === 'entity.parse.failed') e = new HttpError(400, 'malformed_json', 'The request body is not valid JSON');
     else if (err?.type === 'entity.too.large') e = new HttpError(413, 'too_large', 'The request body is too large');
     else if (err?.type === 'encoding.unsupported' || err?.type === 'charset.unsupported')
       e = new HttpError(415, 'unsupported_type', 'Unsupported body encoding');

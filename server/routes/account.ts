@@ -24,11 +24,12 @@ import {
   type InvitationSummary,
   type OutboxMessage,
 } from '../../shared/schemas/account';
-import { endSessionsOf } from '../auth/end-sessions';
+import { endSessionsOf, memberVersionChanged } from '../auth/end-sessions';
+import { setSessionVersion } from '../auth/session-store';
 import { requireMember, requireRole } from '../auth/guards';
 import { claimAttempt, clearLockout, LOCKOUT, lockedError } from '../auth/lockout';
 import { BCRYPT_ROUNDS, passwordProblem } from '../auth/password-policy';
-import { member } from '../auth/session-user';
+import { loadMember, member, toSessionUser } from '../auth/session-user';
 import type { Config } from '../config';
 import type { Db } from '../db/client';
 import { invitations, labs, mailOutbox, passwordResets, users } from '../db/schema';
@@ -37,6 +38,7 @@ import type { Logger } from '../log';
 import { appUrl, mailerFor, outboxAvailable, type Mailer } from '../mail/mailer';
 import { invitationMail, invitationToExistingAccountMail, passwordResetMail } from '../mail/templates';
 import { audit } from '../services/audit';
+import { SqlRateLimitStore } from '../http/rate-limit-store';
 
 export const INVITATION_HOURS = 72;
 export const RESET_MINUTES = 60;
@@ -311,7 +313,13 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
         throw err;
       });
     log.info(`invitation ${first.id} accepted: member ${userId} joined lab ${first.labId}`);
-    res.status(201).json({ member: { id: userId, email: first.email, name: input.name, role: first.role } });
+    // Signed in at once with the password just chosen, as a sign-in would (a new session id).
+    const signedIn = await loadMember(db, userId);
+    if (signedIn) {
+      await db.update(users).set({ lastSignInAt: now() }).where(eq(users.id, userId));
+      await new Promise<void>((resolve, reject) => req.logIn(signedIn, (err) => (err ? reject(err) : resolve())));
+    }
+    res.status(201).json({ member: { id: userId, email: first.email, name: input.name, role: first.role }, user: signedIn ? toSessionUser(signedIn) : null });
   });
 
   // ---------- forgot password ----------
@@ -321,6 +329,8 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
     limit: deps.resetIpLimit ?? 10,
     standardHeaders: 'draft-8',
     legacyHeaders: false,
+    // Counted in MariaDB, so every instance shares one allowance per address.
+    store: new SqlRateLimitStore(db, 'password-reset'),
     handler: (req, _res, next) => {
       log.warn(`password reset rate limit reached for ip ${req.ip}`);
       next(new HttpError(429, 'rate_limited', 'Too many password reset requests from this address; wait a few minutes and try again'));
@@ -414,6 +424,7 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
       await clearLockout(tx, first.email);
       // This link and every other open link of the member stop working.
       await tx.update(passwordResets).set({ usedAt: t }).where(and(eq(passwordResets.userId, first.userId), isNull(passwordResets.usedAt)));
+      await memberVersionChanged(tx, first.userId, 'none');
       await endSessionsOf(tx, first.userId);
       await audit(tx, {
         labId: first.labId,
@@ -459,6 +470,9 @@ export function accountRoutes(deps: AccountRouteDeps): Router {
       await clearLockout(tx, u.email);
       // A reset link asked for earlier would otherwise still set a password.
       await tx.update(passwordResets).set({ usedAt: t }).where(and(eq(passwordResets.userId, me.id), isNull(passwordResets.usedAt)));
+      // This session carries on with the new version; any other is refused from its next request.
+      const version = await memberVersionChanged(tx, me.id, { only: req.sessionID });
+      setSessionVersion(req.session, me.id, version);
       const n = await endSessionsOf(tx, me.id, { except: req.sessionID });
       await audit(tx, {
         labId: me.labId,

@@ -1,5 +1,5 @@
 import { Router, type RequestHandler } from 'express';
-import { rateLimit } from 'express-rate-limit';
+import { rateLimit, type Store } from 'express-rate-limit';
 import { signInInput } from '../../shared/schemas/auth';
 import type { SignInFailure, createPassport } from '../auth/passport';
 import { member, toSessionUser } from '../auth/session-user';
@@ -13,6 +13,8 @@ export interface AuthRouteOptions {
   /** Sign-in attempts allowed per IP per window. */
   ipLimit: number;
   ipWindowMs: number;
+  /** Where attempts are counted: the shared table (SqlRateLimitStore), so every instance counts together. */
+  ipStore?: Store;
   /** With an https PUBLIC_URL: its origin. A sign-in over plain HTTP would get no cookie, so it is refused with a clear answer. */
   httpsOrigin?: string;
 }
@@ -27,6 +29,7 @@ export function authRoutes(o: AuthRouteOptions): Router {
     legacyHeaders: false,
     // Only failed attempts count: a busy lab behind one address can still sign in.
     skipSuccessfulRequests: true,
+    ...(o.ipStore ? { store: o.ipStore } : {}),
     handler: (req, _res, next) => {
       o.log.warn(`sign-in rate limit reached for ip ${req.ip}`);
       next(new HttpError(429, 'rate_limited', 'Too many sign-in attempts from this address; wait a few minutes'));

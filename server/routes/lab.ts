@@ -1,8 +1,9 @@
-import { eq, sql } from 'drizzle-orm';
+import { eq } from 'drizzle-orm';
 import { Router } from 'express';
 import { requireMember } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db } from '../db/client';
+import { poolOf } from '../db/prepared';
 import { labs } from '../db/schema';
 import { DATABASE_RETRY_SECONDS } from '../http/errors';
 
@@ -20,7 +21,7 @@ export function healthRoute(db: Db): Router {
   const r = Router();
   r.get('/', async (_req, res) => {
     try {
-      await db.execute(sql`SELECT 1`);
+      await poolOf(db).query('SELECT 1');
       res.json({ status: 'ok', database: 'up' });
     } catch {
       res.set('Retry-After', String(DATABASE_RETRY_SECONDS)).status(503).json({ status: 'degraded', database: 'down' });

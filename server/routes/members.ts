@@ -1,11 +1,12 @@
-import { and, asc, eq, sql } from 'drizzle-orm';
+import { and, eq, sql } from 'drizzle-orm';
 import { Router } from 'express';
 import { memberRoleInput, type Member } from '../../shared/schemas/auth';
-import { endSessionsOf } from '../auth/end-sessions';
+import { endSessionsOf, memberVersionChanged } from '../auth/end-sessions';
 import { clearLockout } from '../auth/lockout';
 import { requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db, DbOrTx } from '../db/client';
+import { rows } from '../db/prepared';
 import { users } from '../db/schema';
 import { conflict, idParam, notFound, parse } from '../http/errors';
 import { audit } from '../services/audit';
@@ -18,6 +19,9 @@ const columns = {
   active: users.active,
   lastSignInAt: users.lastSignInAt,
 };
+
+/** The lab's members, by name (a prepared statement: the owners' list is read often). */
+export const MEMBER_LIST = 'SELECT id, name, email, role, active, last_sign_in_at AS lastSignInAt FROM users WHERE lab_id = ? ORDER BY name';
 
 function toMember(r: { id: number; name: string; email: string; role: Member['role']; active: boolean; lastSignInAt: Date | null }): Member {
   return { ...r, lastSignInAt: r.lastSignInAt?.toISOString() ?? null };
@@ -37,8 +41,8 @@ export function memberRoutes(db: Db): Router {
 
   r.get('/', async (req, res) => {
     const me = member(req);
-    const rows = await db.select(columns).from(users).where(eq(users.labId, me.labId)).orderBy(asc(users.name));
-    res.json({ members: rows.map(toMember) });
+    const list = await rows<{ id: number; name: string; email: string; role: Member['role']; active: number; lastSignInAt: Date | null }>(db, MEMBER_LIST, [me.labId]);
+    res.json({ members: list.map((m) => toMember({ ...m, active: m.active === 1 })) });
   });
 
   r.get('/:id', async (req, res) => {
@@ -62,6 +66,8 @@ export function memberRoutes(db: Db): Router {
         if (Number(owners) <= 1) throw conflict('A lab needs at least one owner: make someone else owner first', { role: 'The last owner cannot be demoted' });
       }
       await tx.update(users).set({ role: input.role }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      // Their sessions carry on with the new role; a session saved with the old version meanwhile is refused.
+      await memberVersionChanged(tx, id, 'all');
       await audit(tx, {
         labId: me.labId,
         userId: me.id,
@@ -97,6 +103,7 @@ export function memberRoutes(db: Db): Router {
         if (Number(owners) <= 1) throw conflict('A lab needs at least one active owner', { active: 'The last owner cannot be disabled' });
       }
       await tx.update(users).set({ active: false }).where(and(eq(users.labId, me.labId), eq(users.id, id)));
+      await memberVersionChanged(tx, id, 'none');
       const ended = await endSessionsOf(tx, id);
       await audit(tx, {
         labId: me.labId,

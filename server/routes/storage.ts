@@ -10,9 +10,11 @@
  *   GET    /chamber-logs/:id/summary?from&to      summary of a period                         technician+
  *   GET    /chamber-logs/:id/series?from&to       chart points (at most about 2 000)          technician+
  *   GET    /chamber-logs/:id/readings.csv?from&to&resolution=full|chart                       technician+
+ *   GET    /chamber-logs/:id/file                 the CSV as uploaded (from the file store)   technician+
  * Every query is scoped to the member's lab: another lab's ids answer 404 like unknown ids.
  */
-import { mkdirSync } from 'node:fs';
+import { randomUUID } from 'node:crypto';
+import { createReadStream, mkdirSync } from 'node:fs';
 import { open, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -37,10 +39,11 @@ import { member } from '../auth/session-user';
 import type { Db, DbOrTx } from '../db/client';
 import { chamberLogs, storageConditions, users } from '../db/schema';
 import { HttpError, conflict, idParam, notFound, parse, unprocessable } from '../http/errors';
+import { chamberLogKey, FileMissing, sendStream, type FileStore } from '../files';
 import { audit } from '../services/audit';
 import { columnsOf } from '../services/storage-conditions';
 import { CsvProblem, NotText, SNIFF_BYTES, detectLayout } from '../services/chamber-csv';
-import { findLog, importChamberLog, readingsOf, seriesOf, summarizePeriod, toLogListItem, toLogMeta, utcFormatter } from '../services/chamber-logs';
+import { findImport, findLog, importChamberLog, readingsOf, seriesOf, summarizePeriod, toLogListItem, toLogMeta, utcFormatter } from '../services/chamber-logs';
 
 type ConditionRow = typeof storageConditions.$inferSelect;
 
@@ -139,12 +142,13 @@ async function logNames(db: DbOrTx, ids: (number | null)[]): Promise<Map<number,
 /** Conditions of the lab with their log counts and latest logs (by the time the log ends). */
 async function listConditions(db: DbOrTx, labId: number, ids?: number[]): Promise<StorageCondition[]> {
   const where = ids ? and(eq(storageConditions.labId, labId), inArray(storageConditions.id, ids)) : eq(storageConditions.labId, labId);
+  const complete = eq(chamberLogs.importState, 'complete');
   const rows = await db.select().from(storageConditions).where(where).orderBy(desc(storageConditions.active), asc(storageConditions.name));
   if (!rows.length) return [];
   const logs = await db
     .select({ id: chamberLogs.id, conditionId: chamberLogs.conditionId, lastAt: chamberLogs.lastAt })
     .from(chamberLogs)
-    .where(and(eq(chamberLogs.labId, labId), inArray(chamberLogs.conditionId, rows.map((r) => r.id))));
+    .where(and(eq(chamberLogs.labId, labId), inArray(chamberLogs.conditionId, rows.map((r) => r.id)), complete));
   const counts = new Map<number, number>();
   const latestId = new Map<number, { id: number; lastAt: number }>();
   for (const l of logs) {
@@ -217,7 +221,7 @@ function cleanFileName(name: string | undefined): string {
   return (s || 'chamber-log.csv').slice(0, 200);
 }
 
-export function storageRoutes(db: Db): Router {
+export function storageRoutes(db: Db, files: FileStore): Router {
   const r = Router();
 
   // ------------------------------------------------------------ conditions
@@ -251,7 +255,7 @@ export function storageRoutes(db: Db): Router {
     const logs = await db
       .select()
       .from(chamberLogs)
-      .where(and(eq(chamberLogs.labId, me.labId), eq(chamberLogs.conditionId, id)))
+      .where(and(eq(chamberLogs.labId, me.labId), eq(chamberLogs.conditionId, id), eq(chamberLogs.importState, 'complete')))
       .orderBy(desc(chamberLogs.lastAt), desc(chamberLogs.id));
     const names = await logNames(db, logs.map((l) => l.uploadedBy));
     res.json({
@@ -342,10 +346,24 @@ export function storageRoutes(db: Db): Router {
       }
 
       const fileName = cleanFileName(file.originalname);
+      const importId = fields.importId ?? randomUUID();
+      // A retry of an upload that completed: the log it made, nothing imported twice.
+      const done = fields.importId ? await findImport(db, me.labId, importId) : null;
+      if (done?.importState === 'complete') {
+        if (done.conditionId !== condition.id) throw conflict('This import id belongs to another upload', { importId: 'Already used' });
+        res.status(200).json({ log: detailOf(done, condition, me.name) });
+        return;
+      }
+      const key = chamberLogKey(me.labId, importId);
+      let stored = false;
       const logId = await (async () => {
         try {
           const layout = detectLayout(head, fields);
+          // The original file goes to the file store first: a store that is down answers 503 and nothing is imported.
+          await files.put(key, createReadStream(file.path), { size: file.size, contentType: 'text/csv' });
+          stored = true;
           return await importChamberLog(db, {
+            importId,
             labId: me.labId,
             userId: me.id,
             condition,
@@ -355,6 +373,8 @@ export function storageRoutes(db: Db): Router {
             timeZone: me.lab.timeZone,
           });
         } catch (err) {
+          // A 409 means another request is importing this same upload: its file stays.
+          if (stored && !(err instanceof HttpError && err.status === 409)) await files.delete(key).catch(() => undefined);
           if (err instanceof NotText) throw new HttpError(415, 'unsupported_type', `${err.message}. Export the log as CSV text.`, { file: err.message });
           if (err instanceof CsvProblem) {
             const whole = `${err.message}. Nothing was stored.`;
@@ -377,6 +397,26 @@ export function storageRoutes(db: Db): Router {
       condition: { id: c.id, name: c.name, kind: c.kind, location: c.location, active: c.active },
     };
   }
+
+  /** The file as uploaded, streamed from the file store after the lab check. */
+  r.get('/chamber-logs/:id/file', requireMember, async (req, res) => {
+    const log = await logOr404(db, req);
+    if (!log.importId) throw notFound('This log was uploaded before original files were kept');
+    let stored;
+    try {
+      stored = await files.get(chamberLogKey(log.labId, log.importId));
+    } catch (err) {
+      if (err instanceof FileMissing) throw notFound('The original file is missing from storage');
+      throw err;
+    }
+    res.set({
+      'Content-Type': 'text/csv; charset=utf-8',
+      'Content-Length': String(stored.size),
+      'Content-Disposition': `attachment; filename="${downloadName(log.fileName)}.csv"`,
+      'Content-Security-Policy': "default-src 'none'; sandbox",
+    });
+    await sendStream(res, stored.body);
+  });
 
   r.get('/chamber-logs/:id', requireMember, async (req, res) => {
     const me = member(req);

@@ -1,6 +1,6 @@
 /**
- * Chamber logs: importing a logger CSV (streamed, summarized as it goes, inserted in batches in
- * one transaction), and reading stored readings back for a period (summary, chart series, CSV).
+ * Chamber logs: importing a logger CSV (streamed, summarized as it goes, inserted in committed chunks
+ * under an import id), and reading stored readings back for a period (summary, chart series, CSV).
  */
 import { createReadStream } from 'node:fs';
 import { and, eq, sql } from 'drizzle-orm';
@@ -25,8 +25,10 @@ import {
 } from '../../shared/schemas/storage';
 import type { Db, DbOrTx } from '../db/client';
 import { chamberLogs, storageConditions } from '../db/schema';
+import { HttpError } from '../http/errors';
 import { audit } from './audit';
 import { CsvProblem, readChamberCsv, type CsvLayout } from './chamber-csv';
+import { HourlyRollups, summarizeFromRollups, writeRollups } from './chamber-rollups';
 
 /** Readings per multi-row INSERT. */
 export const INSERT_BATCH = 5000;
@@ -170,6 +172,8 @@ export function insertStatement(logId: number, labId: number, firstSeq: number, 
 }
 
 export interface ImportInput {
+  /** The upload's id (chamber_logs.import_id): a retry with the same id is clean. */
+  importId: string;
   labId: number;
   userId: number;
   condition: ConditionRow;
@@ -179,15 +183,61 @@ export interface ImportInput {
   timeZone: string;
 }
 
+/** A log of the lab by import id, whatever its state. */
+export async function findImport(db: DbOrTx, labId: number, importId: string): Promise<LogRow | null> {
+  const [row] = await db.select().from(chamberLogs).where(and(eq(chamberLogs.labId, labId), eq(chamberLogs.importId, importId))).limit(1);
+  return row ?? null;
+}
+
+/** An import left 'importing' this long has stopped (a year of minute readings takes well under a minute). */
+export const STALE_IMPORT_MINUTES = 10;
+const stillImporting = () => new HttpError(409, 'conflict', 'This file is still being imported by another request; try again in a few minutes');
+
+/** Rows removed per DELETE when a half-done import is cleaned up (small write sets, as when importing). */
+const DISCARD_CHUNK = 50_000;
+
+/** Removes a log that never completed: its readings in chunks, then the row. */
+export async function discardImport(db: Db, logId: number): Promise<void> {
+  for (const table of ['chamber_readings', 'chamber_rollups']) {
+    for (;;) {
+      const [res] = (await db.execute(sql`DELETE FROM ${sql.raw(table)} WHERE log_id = ${logId} LIMIT ${DISCARD_CHUNK}`)) as unknown as [{ affectedRows: number }];
+      if (res.affectedRows < DISCARD_CHUNK) break;
+    }
+  }
+  await db.delete(chamberLogs).where(and(eq(chamberLogs.id, logId), eq(chamberLogs.importState, 'importing')));
+}
+
+/** Imports that stopped half-way (a process killed mid-upload) and were not retried within `minutes`. */
+export async function sweepStaleImports(db: Db, now: Date, minutes = STALE_IMPORT_MINUTES): Promise<number> {
+  const stale = await db
+    .select({ id: chamberLogs.id })
+    .from(chamberLogs)
+    .where(and(eq(chamberLogs.importState, 'importing'), sql`${chamberLogs.uploadedAt} < ${new Date(now.getTime() - minutes * 60_000)}`));
+  for (const { id } of stale) await discardImport(db, id);
+  return stale.length;
+}
+
 /**
- * Imports a logger CSV in one transaction: the log row, every reading (multi-row INSERTs of 5 000,
- * the next batch parsed while the previous one is written), the whole-log summary computed while the
- * rows stream, and the audit row. A bad row throws CsvProblem and nothing is stored.
+ * Imports a logger CSV: the log row (state 'importing', shown nowhere), every reading in multi-row
+ * INSERTs of 5 000 that each commit on their own (the next batch parsed while the previous one is
+ * written; a Galera cluster refuses a year of minute readings as one write set), then in one
+ * transaction the whole-log summary computed while the rows streamed, the state 'complete' and the
+ * audit row. A bad row throws CsvProblem and the partial log is removed. The same import id again
+ * returns the completed log, or removes a half-done one and starts over.
  */
 export async function importChamberLog(db: Db, input: ImportInput): Promise<number> {
   const { labId, userId, condition, layout } = input;
+  const prior = await findImport(db, labId, input.importId);
+  if (prior?.importState === 'complete') return prior.id;
+  if (prior) {
+    // Younger than this, it may still be running in another request or instance: never pull rows from under it.
+    if (prior.uploadedAt.getTime() > Date.now() - STALE_IMPORT_MINUTES * 60_000) throw stillImporting();
+    await discardImport(db, prior.id);
+  }
+
   const band = bandFor(condition);
   const acc = new ChamberSummaryAccumulator(accumulatorOptions(band));
+  const rollups = new HourlyRollups(accumulatorOptions(band));
   const source: LogSource = {
     encoding: layout.encoding,
     delimiter: layout.delimiter === '\t' ? 'tab' : layout.delimiter,
@@ -199,33 +249,40 @@ export async function importChamberLog(db: Db, input: ImportInput): Promise<numb
     timeZone: input.timeZone,
   };
 
-  return db.transaction(async (tx) => {
-    const placeholder = new Date(0);
-    const [{ id: logId }] = await tx
-      .insert(chamberLogs)
-      .values({
-        labId,
-        conditionId: condition.id,
-        fileName: input.fileName,
-        sourceUnit: layout.unit,
-        readingCount: 0,
-        firstAt: placeholder,
-        lastAt: placeholder,
-        summary: {},
-        uploadedBy: userId,
-      })
-      .$returningId();
+  const placeholder = new Date(0);
+  let logId: number;
+  try {
+    [{ id: logId }] = await db.insert(chamberLogs).values({
+      labId,
+      conditionId: condition.id,
+      fileName: input.fileName,
+      sourceUnit: layout.unit,
+      readingCount: 0,
+      firstAt: placeholder,
+      lastAt: placeholder,
+      summary: {},
+      uploadedBy: userId,
+      importId: input.importId,
+      importState: 'importing',
+    }).$returningId();
+  } catch (err) {
+    const e = err as { errno?: number; cause?: { errno?: number } };
+    if (e.errno === 1062 || e.cause?.errno === 1062) throw stillImporting();
+    throw err;
+  }
 
+  try {
     let seq = 0;
     let pending: Promise<unknown> | null = null;
     const stream = createReadStream(input.filePath, { highWaterMark: 256 * 1024 });
     try {
       for await (const batch of readChamberCsv(stream, layout, { timeZone: input.timeZone, batchSize: INSERT_BATCH })) {
         for (const r of batch) acc.add(r);
+        rollups.addBatch(batch, seq);
         const statement = insertStatement(logId, labId, seq, batch);
         seq += batch.length;
         if (pending) await pending;
-        pending = tx.execute(sql.raw(statement));
+        pending = db.execute(sql.raw(statement));
         // Keep a failed insert from being an unhandled rejection while the next batch parses.
         pending.catch(() => undefined);
       }
@@ -239,29 +296,37 @@ export async function importChamberLog(db: Db, input: ImportInput): Promise<numb
     const result = acc.result();
     if (result.count === 0) throw new CsvProblem('The file has a header row but no readings');
     const summary = toLogSummary(result, band, source);
-    await tx
-      .update(chamberLogs)
-      .set({ readingCount: result.count, firstAt: new Date(result.first as number), lastAt: new Date(result.last as number), summary })
-      .where(eq(chamberLogs.id, logId));
-    await audit(tx, {
-      labId,
-      userId,
-      action: 'import',
-      entity: 'chamber_log',
-      entityId: logId,
-      newValue: {
-        conditionId: condition.id,
-        fileName: input.fileName,
-        readingCount: result.count,
-        first: summary.first,
-        last: summary.last,
-        unit: layout.unit,
-        mktC: summary.mktC,
-        hoursOutOfTolerance: summary.hoursOutOfTolerance,
-      },
+    // Hourly roll-ups for period summaries (chamber-rollups.ts), committed like the readings.
+    await writeRollups(db, logId, labId, rollups.rows());
+    await db.transaction(async (tx) => {
+      await tx
+        .update(chamberLogs)
+        .set({ readingCount: result.count, firstAt: new Date(result.first as number), lastAt: new Date(result.last as number), summary, importState: 'complete' })
+        .where(eq(chamberLogs.id, logId));
+      await audit(tx, {
+        labId,
+        userId,
+        action: 'import',
+        entity: 'chamber_log',
+        entityId: logId,
+        newValue: {
+          conditionId: condition.id,
+          fileName: input.fileName,
+          readingCount: result.count,
+          first: summary.first,
+          last: summary.last,
+          unit: layout.unit,
+          mktC: summary.mktC,
+          hoursOutOfTolerance: summary.hoursOutOfTolerance,
+        },
+      });
     });
     return logId;
-  });
+  } catch (err) {
+    // Best effort: a database that went away leaves the partial log to a retry or to sweepStaleImports.
+    await discardImport(db, logId).catch(() => undefined);
+    throw err;
+  }
 }
 
 // ---------------------------------------------------------------- reading back
@@ -310,6 +375,9 @@ export async function* readingsOf(
 /** Summary of a stored log over [from, to], judged against the band stored with the log. */
 export async function summarizePeriod(db: DbOrTx, log: LogRow, from: number | null, to: number | null): Promise<LogSummary> {
   const stored = log.summary as LogSummary;
+  // From the hourly roll-ups (chamber-rollups.ts: the same figures); a log stored before them is read raw.
+  const fromRollups = '$client' in db ? await summarizeFromRollups(db as Db, log, accumulatorOptions(stored.band, from, to), from, to) : null;
+  if (fromRollups) return toLogSummary(fromRollups, stored.band);
   const acc = new ChamberSummaryAccumulator(accumulatorOptions(stored.band, from, to));
   for await (const chunk of readingsOf(db, log, from, to)) for (const r of chunk) acc.add(r);
   return toLogSummary(acc.result(), stored.band);
@@ -403,7 +471,11 @@ export function toLogListItem(l: LogRow, uploadedBy: string | null): ChamberLogL
 
 /** A log of the lab, or null. */
 export async function findLog(db: DbOrTx, labId: number, id: number): Promise<LogRow | null> {
-  const [row] = await db.select().from(chamberLogs).where(and(eq(chamberLogs.labId, labId), eq(chamberLogs.id, id))).limit(1);
+  const [row] = await db
+    .select()
+    .from(chamberLogs)
+    .where(and(eq(chamberLogs.labId, labId), eq(chamberLogs.id, id), eq(chamberLogs.importState, 'complete')))
+    .limit(1);
   return row ?? null;
 }
 

@@ -1,20 +1,19 @@
 /**
  * Photos of a sample at a checkpoint. The type is decided by the file's bytes
  * (never its name or claimed type) and the pixel count by the header, before any
- * decoding; files get server-generated names in a folder outside the web root.
+ * decoding; files get server-generated names in the file store (server/files), never a public URL.
  * Beside each original: a thumbnail for lists and a display copy (re-encoded,
  * turned upright, no EXIF/GPS or other metadata) that viewers get; the original
  * only as an explicit download. All or nothing per upload.
  */
 import { createHash, randomBytes } from 'node:crypto';
-import { access, mkdir, readFile, rename, rm, writeFile } from 'node:fs/promises';
-import { join } from 'node:path';
 import { fileTypeFromBuffer } from 'file-type';
 import sharp, { type Metadata } from 'sharp';
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import type { PhotoView } from '../../shared/schemas/records';
 import type { Db, DbOrTx } from '../db/client';
 import { checkpoints, photos, samples, users } from '../db/schema';
+import { photoKey, readAll, type FileStore } from '../files';
 import { HttpError } from '../http/errors';
 import { audit } from './audit';
 
@@ -106,30 +105,19 @@ export async function checkImages(files: IncomingFile[]): Promise<Checked[]> {
 
 /**
  * The display copy of a stored photo, made now if missing (photos stored before display copies
- * existed). Written under a temporary name and renamed, so a reader never sees half a file.
- * Throws ENOENT when the original is missing too; 413 when the original is over the pixel limit.
+ * existed). The store writes whole objects, so a reader never sees half a file. Returns its key.
+ * Throws FileMissing when the original is missing too; 413 when the original is over the pixel limit.
  */
-export async function ensureDisplayCopy(dir: string, storedName: string): Promise<string> {
-  const name = displayNameOf(storedName);
-  try {
-    await access(join(dir, name));
-    return name;
-  } catch {
-    // made below
-  }
-  const original = await readFile(join(dir, storedName));
+export async function ensureDisplayCopy(files: FileStore, storedName: string): Promise<string> {
+  const key = photoKey(displayNameOf(storedName));
+  if (await files.head(key)) return key;
+  const original = await readAll(files, photoKey(storedName));
   const meta = await sharp(original, { limitInputPixels: false }).metadata();
   if (meta.width * meta.height > MAX_PIXELS) {
     throw new HttpError(413, 'too_large', `This photo has ${megapixels(meta.width * meta.height)} megapixels, over the ${PHOTO_MAX_MEGAPIXELS} megapixel limit for viewing; download the original instead`);
   }
-  const tmp = `${name}.${randomBytes(6).toString('hex')}.tmp`;
-  try {
-    await writeFile(join(dir, tmp), await displayCopy(original), { flag: 'wx' });
-    await rename(join(dir, tmp), join(dir, name));
-  } finally {
-    await rm(join(dir, tmp), { force: true });
-  }
-  return name;
+  await files.put(key, await displayCopy(original), { contentType: 'image/webp' });
+  return key;
 }
 
 /**
@@ -149,12 +137,11 @@ export function attachmentHeader(originalName: string, mime: string): string {
 /** Writes the files, then the rows in one transaction; removes the files if the rows fail. */
 export async function savePhotos(
   db: Db,
-  dir: string,
+  files: FileStore,
   who: { id: number; labId: number },
   target: { studyId: number; sampleId: number; checkpointId: number; sampleCode: string; checkpointLabel: string },
   checked: Checked[],
 ): Promise<number[]> {
-  await mkdir(dir, { recursive: true });
   const written: string[] = [];
   try {
     const named: { c: Checked; storedName: string; thumbName: string }[] = [];
@@ -162,12 +149,12 @@ export async function savePhotos(
       const base = randomBytes(16).toString('hex');
       const storedName = `${base}.${ALLOWED[c.mime]}`;
       const thumbName = `${base}.thumb.webp`;
-      await writeFile(join(dir, storedName), c.file.buffer, { flag: 'wx' });
-      written.push(storedName);
-      await writeFile(join(dir, thumbName), c.thumb, { flag: 'wx' });
-      written.push(thumbName);
-      await writeFile(join(dir, displayNameOf(storedName)), c.display, { flag: 'wx' });
-      written.push(displayNameOf(storedName));
+      written.push(photoKey(storedName));
+      await files.put(photoKey(storedName), c.file.buffer, { contentType: c.mime, sha256: c.sha256 });
+      written.push(photoKey(thumbName));
+      await files.put(photoKey(thumbName), c.thumb, { contentType: 'image/webp' });
+      written.push(photoKey(displayNameOf(storedName)));
+      await files.put(photoKey(displayNameOf(storedName)), c.display, { contentType: 'image/webp' });
       named.push({ c, storedName, thumbName });
     }
     return await db.transaction(async (tx) => {
@@ -204,7 +191,7 @@ export async function savePhotos(
       return ids;
     });
   } catch (err) {
-    await Promise.all(written.map((n) => rm(join(dir, n), { force: true })));
+    await Promise.all(written.map((k) => files.delete(k).catch(() => undefined)));
     throw err;
   }
 }

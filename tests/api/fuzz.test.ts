@@ -48,7 +48,7 @@ afterAll(async () => {
 function declaredRoutes(): string[] {
   const server = fileURLToPath(new URL('../../server/', import.meta.url));
   const prefixes = new Map<string, string>();
-  for (const m of readFileSync(join(server, 'app.ts'), 'utf8').matchAll(/api\.use\(\s*(?:'([^']*)',\s*)?(\w+)\(/g)) prefixes.set(m[2], m[1] ?? '');
+  for (const m of readFileSync(join(server, 'app.ts'), 'utf8').matchAll(/api\.use\(\s*(?:'([^']*)',\s*)?(?:\w+,\s*)*(\w+)\(/g)) prefixes.set(m[2], m[1] ?? '');
   const out: string[] = [];
   for (const file of readdirSync(join(server, 'routes')).filter((f) => f.endsWith('.ts'))) {
     const source = readFileSync(join(server, 'routes', file), 'utf8');

@@ -440,7 +440,7 @@ describe('demo storage', () => {
     const ids = await t.db.transaction((tx) => seedStorage(tx, lab.id, ownerId));
     expect(Object.keys(ids).sort()).toEqual(STORAGE_PRESETS.map((p) => p.key).sort());
     const list = await otherOwner.get('/api/storage-conditions');
-    expect(list.body.conditions).toHaveLength(9);
+    expect(list.body.conditions).toHaveLength(STORAGE_PRESETS.length);
     const oven = list.body.conditions.find((c: { id: number }) => c.id === ids['oven-45']);
     expect(oven).toMatchObject({ location: 'oven 1', setpointC: 45, logCount: 1, latestLog: { readingCount: 8640, excursionCount: 1 } });
     expect(oven.latestLog.hoursOutOfTolerance).toBeCloseTo(0.25, 9);

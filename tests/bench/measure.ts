@@ -137,14 +137,25 @@ function machineBusyTicks(): number | null {
 
 const CLOCK_TICKS = 100; // USER_HZ on Linux (`getconf CLK_TCK`)
 
+/** Summed ticks of several processes (the app's primary and its workers), or null when none can be read. */
+function ticksOf(pids: number[]): number | null {
+  let sum: number | null = null;
+  for (const pid of pids) {
+    const t = procTicks(pid);
+    if (t != null) sum = (sum ?? 0) + t;
+  }
+  return sum;
+}
+
 export class CpuWatch {
-  constructor(private pids: { server?: number; mariadb?: number }) {}
+  /** server: the app's processes (primary and workers); their CPU is added up (100 % = one core). */
+  constructor(private pids: { server?: number[]; mariadb?: number }) {}
 
   start() {
     const t0 = performance.now();
     const read = () => ({
       own: procTicks('self'),
-      server: this.pids.server ? procTicks(this.pids.server) : null,
+      server: this.pids.server?.length ? ticksOf(this.pids.server) : null,
       db: this.pids.mariadb ? procTicks(this.pids.mariadb) : null,
       all: machineBusyTicks(),
     });
@@ -174,16 +185,16 @@ export class CpuWatch {
  * (the server goes on with them after the client has gone): no query of the app account running
  * and the server process nearly idle, twice in a row 250 ms apart. Returns the seconds waited.
  */
-export async function waitForQuiet(o: { serverPid?: number; activeQueries: () => Promise<number>; maxSeconds?: number }): Promise<number> {
+export async function waitForQuiet(o: { serverPids?: number[]; activeQueries: () => Promise<number>; maxSeconds?: number }): Promise<number> {
   const t0 = performance.now();
   const deadline = t0 + (o.maxSeconds ?? 120) * 1000;
   let calm = 0;
-  let ticks = o.serverPid ? procTicks(o.serverPid) : null;
+  let ticks = o.serverPids?.length ? ticksOf(o.serverPids) : null;
   while (calm < 2 && performance.now() < deadline && !abort.requested) {
     await new Promise((r) => setTimeout(r, 250));
-    const now = o.serverPid ? procTicks(o.serverPid) : null;
+    const now = o.serverPids?.length ? ticksOf(o.serverPids) : null;
     // 250 ms at 100 ticks/s is 25 ticks for a whole core; 3 ticks is about 12 %.
-    const serverIdle = ticks == null || now == null || now - ticks <= 3;
+    const serverIdle = ticks == null || now == null || now - ticks <= 2 + (o.serverPids?.length ?? 1);
     ticks = now;
     calm = serverIdle && (await o.activeQueries()) === 0 ? calm + 1 : 0;
   }

@@ -8,8 +8,8 @@
  *    would flatter every write. BENCH_TMPDIR overrides it.
  * 2. Migrations, the app account's grants, the demo labs, then a bigger
  *    invented dataset (tests/bench/dataset.ts).
- * 3. Starts the app in a child process (tests/bench/server.ts) so autocannon
- *    does not share its event loop, and drives it over loopback: BENCH_SECONDS
+ * 3. Starts the app in a child process (tests/bench/server.ts; its cluster workers,
+ *    one per core) so autocannon does not share its event loop, and drives it over loopback: BENCH_SECONDS
  *    (default 10) per run after a BENCH_WARMUP (default 2) s warm-up,
  *    50 connections (10 for sign-in), no pipelining.
  * 4. Beside each route, the same SQL straight through mysql2 with the same
@@ -20,7 +20,8 @@
  * Environment: BENCH_SECONDS, BENCH_WARMUP, BENCH_ONLY=name,name (scenarios to
  * run), BENCH_TMPDIR, BENCH_TRACE=1 (print the SQL one request of each
  * scenario sends, from MariaDB's general log), BENCH_JSON=path (write results),
- * KW_BENCH_POOL (the app's pool size; default createPool's 20, as `npm start`), BENCH_PROFILE=dir
+ * KW_BENCH_POOL (the app's pool size per process; default createPool's 20, as `npm start`), KW_BENCH_WORKERS
+ * (app worker processes; default one per core, as `npm start`), BENCH_PROFILE=dir
  * (the app server writes a V8 CPU profile there when it stops; open it in Chromium's DevTools).
  * A scenario that fails is reported and skipped; the exit code is then 1.
  */
@@ -90,7 +91,7 @@ function checkAbort() {
 }
 
 // ---- the app under test, in a child process -----------------------------------------------
-async function startServer(env: Record<string, string>): Promise<{ port: number; child: ChildProcess }> {
+async function startServer(env: Record<string, string>): Promise<{ port: number; child: ChildProcess; workers: number[] }> {
   const profile = process.env.BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.BENCH_PROFILE}`] : [];
   const child = spawn(process.execPath, [...profile, '--import', 'tsx', SERVER_ENTRY], {
     cwd: REPO,
@@ -98,13 +99,14 @@ async function startServer(env: Record<string, string>): Promise<{ port: number;
     stdio: ['pipe', 'pipe', 'inherit'],
   });
   const lines = createInterface({ input: child.stdout! });
-  const port = await new Promise<number>((resolve, reject) => {
+  const { port, workers } = await new Promise<{ port: number; workers: number[] }>((resolve, reject) => {
     const timer = setTimeout(() => reject(new Error('The bench server did not start within 60 s')), 60_000);
     child.once('exit', (code) => reject(new Error(`The bench server exited during start-up (code ${code})`)));
     lines.once('line', (line) => {
       clearTimeout(timer);
       try {
-        resolve(Number(JSON.parse(line).port));
+        const first = JSON.parse(line) as { port: number; workers?: number[] };
+        resolve({ port: Number(first.port), workers: first.workers ?? [] });
       } catch {
         reject(new Error(`Unexpected first line from the bench server: ${line}`));
       }
@@ -112,7 +114,7 @@ async function startServer(env: Record<string, string>): Promise<{ port: number;
   });
   // Anything else it prints goes to our stdout.
   lines.on('line', (l) => say(`[server] ${l}`));
-  return { port, child };
+  return { port, child, workers };
 }
 
 async function stopChild(child: ChildProcess): Promise<void> {
@@ -236,7 +238,9 @@ async function main() {
   checkAbort();
 
   t = performance.now();
-  const pool = createPool(launched.app, RAW_POOL_SIZE);
+  // The app's account over the server's socket, as `npm start` connects (cheaper per query than TCP).
+  const appTarget = { ...launched.app, host: undefined, port: undefined, socketPath: launched.admin.socketPath };
+  const pool = createPool(appTarget, RAW_POOL_SIZE);
   cleanups.push({ name: 'end raw pool', fn: () => pool.end() });
   const db = createDb(pool);
   const demo = await seedDemo(db);
@@ -248,10 +252,11 @@ async function main() {
   checkAbort();
 
   t = performance.now();
-  const { port, child } = await startServer({ KW_BENCH_DB: JSON.stringify(launched.app) });
+  const { port, child, workers } = await startServer({ KW_BENCH_DB: JSON.stringify(appTarget) });
   cleanups.push({ name: 'stop bench server', fn: () => stopChild(child) });
   const baseUrl = `http://127.0.0.1:${port}`;
-  say(`App listening on ${baseUrl} (child pid ${child.pid}): ${secs(t)} s`);
+  const serverPids = [child.pid!, ...workers];
+  say(`App listening on ${baseUrl} (child pid ${child.pid}${workers.length ? `, workers ${workers.join(', ')}` : ''}): ${secs(t)} s`);
 
   const ctx: BenchContext = {
     baseUrl,
@@ -281,13 +286,13 @@ async function main() {
   if (scenarios.length === 0) throw new Error(`No scenario matches BENCH_ONLY=${process.env.BENCH_ONLY}`);
 
   const dbPid = Number(readFileSync(join(base, 'mariadb.pid'), 'utf8').trim()) || undefined;
-  const watch = new CpuWatch({ server: child.pid, mariadb: dbPid });
+  const watch = new CpuWatch({ server: serverPids, mariadb: dbPid });
   const adminConn = await mysql.createConnection({ ...launched.admin });
   cleanups.push({ name: 'close admin connection', fn: () => adminConn.end() });
   /** Before each run: let the server finish what the previous run left in flight, so runs do not overlap. */
   const settle = async () => {
     const waited = await waitForQuiet({
-      serverPid: child.pid,
+      serverPids,
       activeQueries: async () => {
         const [[r]] = await adminConn.query<mysql.RowDataPacket[]>(
           "SELECT COUNT(*) AS n FROM information_schema.processlist WHERE user = ? AND command <> 'Sleep'",
@@ -364,9 +369,9 @@ async function main() {
       `buffer pool ${Math.round(Number(server.bp) / 2 ** 20)} MiB, data on ${onTmpfs ? 'tmpfs' : 'disk'} (${base})`,
   );
   say(`Dataset: ${counts.labs} labs, ${counts.users} members, ${Number(counts.audit).toLocaleString('en-US')} audit rows; sessions grow as the sign-in run adds them.`);
-  say(`Load: autocannon over loopback, no pipelining, ${SECONDS} s per run after ${WARMUP} s warm-up. App in one child process (production config, pool of ${process.env.KW_BENCH_POOL ?? 20} connections, sign-in IP limiter lifted). Raw: mysql2 pool of ${RAW_POOL_SIZE}, app account, as many async loops as HTTP connections.`);
+  say(`Load: autocannon over loopback, no pipelining, ${SECONDS} s per run after ${WARMUP} s warm-up. App in ${workers.length ? `${workers.length} worker processes of a child (cluster module, as \`npm start\`)` : 'one child process'} (production config, pool of ${process.env.KW_BENCH_POOL ?? 20} connections per process, sign-in IP limiter lifted). App and raw reach MariaDB over its socket. Raw: mysql2 pool of ${RAW_POOL_SIZE}, app account, as many async loops as HTTP connections.`);
   say('per s: app = responses/s, raw = operations/s (an operation may be several statements), both count ÷ wall time of the run. p50/p99 from every response (ms, not rounded). app÷raw = app req/s ÷ raw ops/s.');
-  say(`CPU%: share of one core used during the run by the app server / mariadbd / load generator (this process) / everything else; all share these ${cpu.length} cores.`);
+  say(`CPU%: share of one core used during the run by the app server (all its processes) / mariadbd / load generator (this process) / everything else; all share these ${cpu.length} cores.`);
   const busy = rows.filter((r) => (r.m.cpu?.others ?? 0) > 15);
   if (busy.length > 0) say(`! Other processes used more than 15% of a core during ${busy.length} of ${rows.length} runs (column "oth"): those figures are low.`);
   say(`Load average (1 min) at start ${loadStart.toFixed(2)}, at end ${os.loadavg()[0].toFixed(2)}.`);

@@ -8,7 +8,7 @@
  *              checkpoint's state in one transaction, on MariaDB at full durability, then the
  *              sheet read back as the route does. Every request saves a cell never saved before.
  *  - analysis: GET /api/studies/:id/analysis of a study of 4 variants x 5 conditions x 10
- *              checkpoints x 10 attributes (2,000 observations), one request at a time: the
+ *              checkpoints x 10 attributes (2,000 observations and the initial tests), one request at a time: the
  *              median (p50) is the time one formulator waits for the charts.
  *
  * Each builds its own lab in its setup (study-data.ts), so BENCH_ONLY=analysis does not pay for
@@ -18,8 +18,9 @@ import type { PoolConnection, RowDataPacket } from 'mysql2/promise';
 import { analyzeStudy } from '../../server/services/analysis';
 import { benchCheckpointsQuery, benchDetailQueries } from '../../server/services/studies';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
+import { INITIAL_LABEL } from '../../shared/compute/study-calendar';
 import type { BenchContext, Scenario } from './scenario';
-import { expiresNow, JSON_CHANGE, MEMBER_WITH_LAB, SESSION_READ, SESSION_TOUCH } from './scenarios';
+import { JSON_CHANGE, sessionRead } from './scenarios';
 import { sessionIdFromCookie } from './scenario';
 import { createStudyLab, emulsionValue, prng, weeks, writeStudies, type BulkStudySpec, type StudyLab } from './study-data';
 
@@ -70,11 +71,11 @@ export function benchScenario(): Scenario {
       today = localDateInZone(new Date(), lab.timeZone);
       const c = lab.conditions;
       const conditions: BulkStudySpec['conditions'] = [
-        { conditionId: c['fridge-4'], role: 'control', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20) },
-        { conditionId: c['ich-25-60'], role: 'real_time', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20) },
-        { conditionId: c['ich-40-75'], role: 'accelerated', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20) },
-        { conditionId: c['oven-45'], role: 'accelerated', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20) },
-        { conditionId: c['oven-50'], role: 'stress', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20) },
+        { conditionId: c['fridge-4'], role: 'control', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20, 24) },
+        { conditionId: c['ich-25-60'], role: 'real_time', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20, 24) },
+        { conditionId: c['ich-40-75'], role: 'accelerated', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20, 24) },
+        { conditionId: c['oven-45'], role: 'accelerated', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20, 24) },
+        { conditionId: c['oven-50'], role: 'stress', offsets: weeks(1, 2, 4, 6, 8, 10, 12, 16, 20, 24) },
       ];
       const specs: BulkStudySpec[] = [];
       const finished = HISTORY_STUDIES - RUNNING;
@@ -137,11 +138,9 @@ export function benchScenario(): Scenario {
         name: 'all 7 statements a request makes',
         async once(loop) {
           const s = sessions[loop % sessions.length];
-          await ctx.pool.query(SESSION_READ, [s.sessionId]);
-          await ctx.pool.query(MEMBER_WITH_LAB, [s.userId]);
+          await sessionRead(ctx, s.sessionId);
           await ctx.pool.query(main.sql, main.params);
           await Promise.all(details.map((d) => ctx.pool.query(d.sql, d.params)));
-          await ctx.pool.query(SESSION_TOUCH, [expiresNow(), s.sessionId]);
         },
       },
     ],
@@ -213,10 +212,10 @@ export function recordScenario(): Scenario {
         replicates: 2,
         attributeCodes: RECORD_ATTRIBUTES,
         value: emulsionValue,
-        // Day 0 recorded a week ago; every later checkpoint is put on today so each sample-checkpoint
+        // The initial test recorded a week ago; every pull is put on today so each sample-checkpoint
         // pair is open for recording (a load generator's shortcut: real plans spread them out).
-        recorded: (cp) => cp.label === 'Day 0',
-        dueDate: (cp) => (cp.label === 'Day 0' ? cp.dueDate : today),
+        recorded: (cp) => cp.label === INITIAL_LABEL,
+        dueDate: (cp) => (cp.label === INITIAL_LABEL ? cp.dueDate : today),
       }));
       const written = await writeStudies(ctx, lab, specs, { samplePrefix: 'R', seed: 515, today });
       cells = [];
@@ -266,25 +265,25 @@ export function recordScenario(): Scenario {
     },
     raw: (ctx) => [
       {
-        name: 'its writes alone: 10 + 10 INSERTs, one COMMIT',
-        note: 'The durable floor of one save: the observation and audit INSERTs the route makes, in one transaction, without its reads, checks or the sheet it sends back.',
+        name: 'its writes alone: 2 multi-row INSERTs, one COMMIT',
+        note: 'The durable floor of one save: the observation and audit INSERTs the route makes (10 rows each, one statement each), in one transaction, without its reads, checks or the sheet it sends back.',
         async once(loop) {
           const c = take();
           const userId = lab.technicians[loop % lab.technicians.length].id;
           const conn: PoolConnection = await (ctx.pool as unknown as { getConnection(): Promise<PoolConnection> }).getConnection();
           try {
             await conn.beginTransaction();
-            for (const a of c.attrs) {
+            const values = c.attrs.map((a) => {
               const v = entryValue(a.code, rand);
-              const [r] = await conn.query<import('mysql2').ResultSetHeader>(
-                'INSERT INTO observations (lab_id, study_id, sample_id, checkpoint_id, study_attribute_id, value_num, value_text, value_bool, method, verdict, recorded_by) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)',
-                [lab.id, c.studyId, c.sampleId, c.cpId, a.id, typeof v.value === 'number' ? v.value : null, typeof v.value === 'string' ? v.value : null, typeof v.value === 'boolean' ? v.value : null, v.method ? JSON.stringify(v.method) : null, 'pass', userId],
-              );
-              await conn.query(
-                'INSERT INTO audit_log (lab_id, user_id, action, entity, entity_id, study_id, new_value) VALUES (?, ?, ?, ?, ?, ?, ?)',
-                [lab.id, userId, 'create', 'observation', String(r.insertId), c.studyId, JSON.stringify({ sample: c.code, attribute: a.code, value: v.value, verdict: 'pass' })],
-              );
-            }
+              return { a, v, row: [lab.id, c.studyId, c.sampleId, c.cpId, a.id, typeof v.value === 'number' ? v.value : null, typeof v.value === 'string' ? v.value : null, typeof v.value === 'boolean' ? v.value : null, v.method ? JSON.stringify(v.method) : null, 'pass', userId] };
+            });
+            const [r] = await conn.query<import('mysql2').ResultSetHeader>(
+              'INSERT INTO observations (lab_id, study_id, sample_id, checkpoint_id, study_attribute_id, value_num, value_text, value_bool, method, verdict, recorded_by) VALUES ?',
+              [values.map((x) => x.row)],
+            );
+            await conn.query('INSERT INTO audit_log (lab_id, user_id, action, entity, entity_id, study_id, new_value) VALUES ?', [
+              values.map((x, i) => [lab.id, userId, 'create', 'observation', String(r.insertId + i), c.studyId, JSON.stringify({ sample: c.code, attribute: x.a.code, value: x.v.value, verdict: 'pass' })]),
+            ]);
             await conn.commit();
           } catch (err) {
             await conn.rollback().catch(() => {});
@@ -308,12 +307,12 @@ export function analysisScenario(): Scenario {
   let today = '';
   return {
     name: 'analysis',
-    about: 'GET /api/studies/:id/analysis of 4 variants x 5 conditions x 10 checkpoints x 10 attributes (2,000 observations), one request at a time',
+    about: 'GET /api/studies/:id/analysis of 4 variants x 5 conditions x 10 checkpoints x 10 attributes (2,000 observations and the initial tests), one request at a time',
     async setup(ctx) {
       lab = await createStudyLab(ctx, { name: 'Bench Analysis Lab', slug: 'ana', technicians: 1, variants: 4, lotsPerVariant: 1 });
       today = localDateInZone(new Date(), lab.timeZone);
       const c = lab.conditions;
-      const offsets = weeks(2, 4, 8, 13, 26, 39, 52, 78, 104);
+      const offsets = weeks(1, 2, 4, 8, 13, 26, 39, 52, 78, 104);
       const [written] = await writeStudies(
         ctx,
         lab,
@@ -338,7 +337,8 @@ export function analysisScenario(): Scenario {
         { samplePrefix: 'N', seed: 404, today },
       );
       studyId = written.id;
-      if (written.observations !== 4 * 5 * 10 * 10) throw new Error(`The analysis study has ${written.observations} observations, expected 2,000`);
+      // 4 variants x 5 conditions x 10 pulls x 10 attributes, and each variant's initial test.
+      if (written.observations !== 4 * 5 * 10 * 10 + 4 * 10) throw new Error(`The analysis study has ${written.observations} observations, expected 2,040`);
       sessions = await signInAll(ctx, [lab.formulator]);
       const t0 = performance.now();
       const res = await fetch(`${ctx.baseUrl}/api/studies/${studyId}/analysis`, { headers: { cookie: sessions[0].cookie } });

@@ -15,7 +15,8 @@ import { seedFormulas } from '../../server/demo/formulas';
 import { mulberry32, seedStorage } from '../../server/demo/storage';
 import { ensureStarterAttributes } from '../../server/services/labs';
 import { evaluate, type Criterion } from '../../shared/compute/criteria';
-import { addDays, generateSchedule, localDateInZone } from '../../shared/compute/schedule';
+import { addDays, localDateInZone } from '../../shared/compute/schedule';
+import { isDayZero, studyCalendar } from '../../shared/compute/study-calendar';
 import type { PlanOffset } from '../../shared/domain';
 import type { PresetKey } from '../../shared/storage-presets';
 import type { Role } from '../../shared/roles';
@@ -219,6 +220,7 @@ function sampleCode(prefix: string, n: number): string {
 
 export interface WrittenStudy {
   id: number;
+  /** scIndex: the condition's index in the spec; -1 for a batch's retained samples (the initial test). */
   samples: { id: number; code: string; scIndex: number }[];
   /** Checkpoints left open, by condition. */
   openCheckpoints: { id: number; scIndex: number; dueDate: string }[];
@@ -255,65 +257,90 @@ export async function writeStudies(ctx: BenchContext, lab: StudyLab, specs: Bulk
       return { id, code, criterion: a.criterion };
     });
     const written: WrittenStudy = { id: studyId, samples: [], openCheckpoints: [], studyAttributes: sas.map((s) => ({ id: s.id, code: s.code })), observations: 0 };
+    const method = (code: string) => (code === 'ph' ? '{"method":"neat"}' : code === 'viscosity' ? '{"spindle":"RV-6","speed":10,"temperature":25}' : null);
+    const observe = (cpId: number, smp: { id: number; variantCode: string; replicate: number; lotId: number }, sa: (typeof sas)[number], v: Value, verdict: string, dueDate: string) => {
+      w.add(
+        'observations',
+        'id, lab_id, study_id, sample_id, checkpoint_id, study_attribute_id, value_num, value_text, value_bool, method, verdict, recorded_by, recorded_at',
+        [ids.obs++, lab.id, studyId, smp.id, cpId, sa.id, typeof v === 'number' ? v : null, typeof v === 'string' ? v : null, typeof v === 'boolean' ? v : null, method(sa.code), verdict, technician.id, new Date(`${dueDate}T10:30:00Z`)],
+      );
+      written.observations++;
+    };
     let labelOrder = 0;
+    const newSample = (scId: number | null, scIndex: number, lot: StudyLab['lots'][number], rep: number) => {
+      const id = ids.sample++;
+      const code = sampleCode(opts.samplePrefix, sampleNo++);
+      w.add('samples', 'id, lab_id, study_id, batch_id, study_condition_id, code, replicate, label_order', [id, lab.id, studyId, lot.id, scId, code, rep, ++labelOrder]);
+      written.samples.push({ id, code, scIndex });
+      return { id, variantCode: lot.variantCode, replicate: rep, lotId: lot.id };
+    };
+
+    // As the app starts a study (server/services/study/start.ts): each batch's retained samples and one
+    // initial test on the start date, then every condition's pulls paired with a same-day control reading.
+    const calendar = studyCalendar(
+      spec.startDate,
+      spec.conditions.map((c, i) => ({ key: i, name: `condition ${i}`, role: c.role, kind: 'constant' as const, offsets: c.offsets.filter((o) => !isDayZero(o)) })),
+    );
+    // Conditions before samples: the writer flushes tables in the order they were first added.
+    const scIds = spec.conditions.map(() => ids.sc++);
     for (const [ci, c] of spec.conditions.entries()) {
-      const scId = ids.sc++;
-      w.add('study_conditions', 'id, lab_id, study_id, condition_id, role, position, offsets', [scId, lab.id, studyId, c.conditionId, c.role, ci, JSON.stringify(c.offsets)]);
-      const samplesHere: { id: number; variantCode: string; replicate: number }[] = [];
-      for (const lot of spec.lots) {
-        for (let rep = 1; rep <= spec.replicates; rep++) {
-          const id = ids.sample++;
-          const code = sampleCode(opts.samplePrefix, sampleNo++);
-          w.add('samples', 'id, lab_id, study_id, batch_id, study_condition_id, code, replicate, label_order', [id, lab.id, studyId, lot.id, scId, code, rep, ++labelOrder]);
-          samplesHere.push({ id, variantCode: lot.variantCode, replicate: rep });
-          written.samples.push({ id, code, scIndex: ci });
-        }
+      w.add('study_conditions', 'id, lab_id, study_id, condition_id, role, position, offsets', [scIds[ci], lab.id, studyId, c.conditionId, c.role, ci, JSON.stringify(c.offsets.filter((o) => !isDayZero(o)))]);
+    }
+    const retained = spec.lots.flatMap((lot) => Array.from({ length: spec.replicates }, (_, r) => newSample(null, -1, lot, r + 1)));
+    const initialId = ids.cp++;
+    const init = calendar.initial;
+    const initialInfo = { dueDate: init.dueDate, label: init.label, conditionIndex: -1 };
+    const initialDue = spec.dueDate?.(initialInfo) ?? init.dueDate;
+    const initialRecorded = spec.recorded ? spec.recorded(initialInfo) : initialDue < today;
+    w.add(
+      'checkpoints',
+      'id, lab_id, study_id, study_condition_id, kind, control_checkpoint_id, offset_unit, offset_n, label, due_date, window_before, window_after, status, closed_at, closed_by',
+      [initialId, lab.id, studyId, null, 'initial', null, 'day', 0, init.label, initialDue, init.windowBefore, init.windowAfter, initialRecorded ? 'done' : 'open', initialRecorded ? new Date(`${initialDue}T15:00:00Z`) : null, initialRecorded ? technician.id : null],
+    );
+    if (!initialRecorded) written.openCheckpoints.push({ id: initialId, scIndex: -1, dueDate: initialDue });
+    /** Each batch's initial reading per attribute: the baseline of its change criteria. */
+    const baselines = new Map<string, Value | undefined>();
+    for (const smp of retained) {
+      for (const sa of sas) {
+        const v = spec.value(sa.code, { variantCode: smp.variantCode, role: 'initial', day: 0, replicate: smp.replicate, rand });
+        if (v === undefined) continue;
+        const key = `${smp.lotId}:${sa.id}`;
+        if (!baselines.has(key)) baselines.set(key, v);
+        if (initialRecorded) observe(initialId, smp, sa, v, evaluate(sa.criterion, v, undefined).verdict, initialDue);
       }
-      const baselines = new Map<string, Value | undefined>();
-      for (const s of generateSchedule({ startDate: spec.startDate, offsets: c.offsets, cycleHours: 48 })) {
-        const info = { dueDate: s.dueDate, label: s.label, conditionIndex: ci };
-        const dueDate = spec.dueDate?.(info) ?? s.dueDate;
+    }
+
+    // The control's pulls first, so every other pull can name the control reading of its day.
+    const order = calendar.conditions.map((c) => c.key).sort((a, b) => Number(b === calendar.controlKey) - Number(a === calendar.controlKey));
+    const controlByDate = new Map<string, number>();
+    for (const ci of order) {
+      const c = spec.conditions[ci];
+      const scId = scIds[ci];
+      const samplesHere = spec.lots.flatMap((lot) => Array.from({ length: spec.replicates }, (_, r) => newSample(scId, ci, lot, r + 1)));
+      for (const p of calendar.conditions.find((x) => x.key === ci)!.pulls) {
+        const info = { dueDate: p.dueDate, label: p.label, conditionIndex: ci };
+        const dueDate = spec.dueDate?.(info) ?? p.dueDate;
         const recorded = spec.recorded ? spec.recorded(info) : dueDate < today;
         const cpId = ids.cp++;
+        const controlDate = 'controlDate' in p ? p.controlDate : null;
+        const controlId = controlDate == null ? null : controlDate === spec.startDate ? initialId : (controlByDate.get(controlDate) ?? null);
+        if (ci === calendar.controlKey) controlByDate.set(p.dueDate, cpId);
         w.add(
           'checkpoints',
-          'id, lab_id, study_id, study_condition_id, offset_unit, offset_n, label, due_date, window_before, window_after, status, closed_at, closed_by',
-          [cpId, lab.id, studyId, scId, s.offset.unit, s.offset.n, s.label, dueDate, s.windowBefore, s.windowAfter, recorded ? 'done' : 'open', recorded ? new Date(`${dueDate}T15:00:00Z`) : null, recorded ? technician.id : null],
+          'id, lab_id, study_id, study_condition_id, kind, control_checkpoint_id, offset_unit, offset_n, label, due_date, window_before, window_after, status, closed_at, closed_by',
+          [cpId, lab.id, studyId, scId, 'pull', controlId, p.offset.unit, p.offset.n, p.label, dueDate, p.windowBefore, p.windowAfter, recorded ? 'done' : 'open', recorded ? new Date(`${dueDate}T15:00:00Z`) : null, recorded ? technician.id : null],
         );
         if (!recorded) {
           written.openCheckpoints.push({ id: cpId, scIndex: ci, dueDate });
           continue;
         }
-        const day = Math.round((Date.parse(s.dueDate) - Date.parse(spec.startDate)) / 86_400_000);
+        const day = Math.round((Date.parse(p.dueDate) - Date.parse(spec.startDate)) / 86_400_000);
         for (const smp of samplesHere) {
           for (const sa of sas) {
             const v = spec.value(sa.code, { variantCode: smp.variantCode, role: c.role, day, replicate: smp.replicate, rand });
             if (v === undefined) continue;
-            const key = `${smp.id}:${sa.id}`;
-            if (day === 0) baselines.set(key, v);
-            const base = baselines.get(key);
-            const ev = evaluate(sa.criterion, v, typeof base === 'number' ? base : undefined);
-            const method = sa.code === 'ph' ? '{"method":"neat"}' : sa.code === 'viscosity' ? '{"spindle":"RV-6","speed":10,"temperature":25}' : null;
-            w.add(
-              'observations',
-              'id, lab_id, study_id, sample_id, checkpoint_id, study_attribute_id, value_num, value_text, value_bool, method, verdict, recorded_by, recorded_at',
-              [
-                ids.obs++,
-                lab.id,
-                studyId,
-                smp.id,
-                cpId,
-                sa.id,
-                typeof v === 'number' ? v : null,
-                typeof v === 'string' ? v : null,
-                typeof v === 'boolean' ? v : null,
-                method,
-                ev.verdict,
-                technician.id,
-                new Date(`${dueDate}T10:30:00Z`),
-              ],
-            );
-            written.observations++;
+            const base = baselines.get(`${smp.lotId}:${sa.id}`);
+            observe(cpId, smp, sa, v, evaluate(sa.criterion, v, typeof base === 'number' ? base : undefined).verdict, dueDate);
           }
         }
       }
@@ -324,8 +351,8 @@ export async function writeStudies(ctx: BenchContext, lab: StudyLab, specs: Bulk
   return out;
 }
 
-/** Offsets in days and weeks: day 0, then the weeks given. */
-export const weeks = (...ns: number[]): PlanOffset[] => [{ unit: 'day', n: 0 }, ...ns.map((n) => ({ unit: 'week' as const, n }))];
+/** Pull offsets in weeks (day 0 is the study's initial test, written by writeStudies). */
+export const weeks = (...ns: number[]): PlanOffset[] => ns.map((n) => ({ unit: 'week' as const, n }));
 
 /**
  * Invented values of an emulsion over time: variant A thins and separates when hot, later variants

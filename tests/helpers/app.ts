@@ -18,6 +18,8 @@ import { runMigrations } from '../../server/db/migrate';
 import { DEMO_PASSWORD } from '../../server/demo/people';
 import { seedDemo, type SeededLab } from '../../server/demo/seed';
 import { createLogger } from '../../server/log';
+import { folderStore, s3Store, type FileStore } from '../../server/files';
+import { CreateBucketCommand, S3Client } from '@aws-sdk/client-s3';
 
 export { DEMO_PASSWORD };
 
@@ -59,9 +61,24 @@ export interface TestApp {
   admin: ConnectionTarget;
   database: string;
   labs: SeededLab[];
+  /** Where this app keeps photos and chamber-log files: a temp folder, or a fresh bucket in s3rver (project api-s3). */
+  files: FileStore;
   client(): Client;
   signIn(email: string, password?: string): Promise<Client>;
   close(): Promise<void>;
+}
+
+/** A new empty bucket in the run's s3rver (tests/setup/s3.ts), as the S3 file store. */
+export async function testBucket(): Promise<FileStore> {
+  const s3 = inject('s3');
+  const bucket = `kw-${randomBytes(6).toString('hex')}`;
+  const credentials = { accessKeyId: s3.accessKeyId, secretAccessKey: s3.secretAccessKey };
+  const client = new S3Client({ endpoint: s3.endpoint, region: 'us-east-1', forcePathStyle: true, credentials });
+  await client.send(new CreateBucketCommand({ Bucket: bucket }));
+  client.destroy();
+  const store = s3Store({ bucket, endpoint: s3.endpoint, forcePathStyle: true, credentials });
+  await store.check();
+  return store;
 }
 
 /**
@@ -80,7 +97,8 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}, opts: { de
   const pool = createPool({ host: '127.0.0.1', port: m.port, user: m.appUser, password: m.appPassword, database }, 10);
   const db = createDb(pool);
   const uploadsDir = overrides.uploadsDir ?? mkdtempSync(join(tmpdir(), 'kw-uploads-'));
-  const labs = opts.demo === 'full' ? await seedDemo(db, { content: 'full', uploadsDir }) : await seedDemo(db);
+  const files = overrides.files ?? (process.env.KEEPWELL_TEST_FILES === 's3' ? await testBucket() : folderStore(uploadsDir));
+  const labs = opts.demo === 'full' ? await seedDemo(db, { content: 'full', files }) : await seedDemo(db);
   const { app, close } = createApp({
     db,
     pool,
@@ -90,6 +108,7 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}, opts: { de
     serveClient: false,
     ...overrides,
     uploadsDir,
+    files,
   });
   return {
     app,
@@ -98,6 +117,7 @@ export async function createTestApp(overrides: Partial<AppDeps> = {}, opts: { de
     admin,
     database,
     labs,
+    files,
     client: () => new Client(app),
     async signIn(email, password = DEMO_PASSWORD) {
       const c = new Client(app);

@@ -54,6 +54,11 @@ export const users = mysqlTable(
     lastSignInAt: datetime('last_sign_in_at', { mode: 'date', fsp: 3 }),
     /** The member's own choice: the morning reminder digest by e-mail. */
     remindersEnabled: boolean('reminders_enabled').notNull().default(true),
+    /**
+     * Bumped on a change of role, access (disable) or password: a session carries the version it was
+     * issued with and is refused on its next request once they differ (server/auth/session-store.ts).
+     */
+    version: int('version', { unsigned: true }).notNull().default(1),
     createdAt: createdAt(),
   },
   (t) => [uniqueIndex('users_email_uq').on(t.email), index('users_lab_idx').on(t.labId)],
@@ -95,9 +100,18 @@ export const auditLog = mysqlTable(
   (t) => [index('audit_lab_at_idx').on(t.labId, t.at), index('audit_entity_idx').on(t.labId, t.entity, t.entityId), index('audit_study_idx').on(t.labId, t.studyId, t.at)],
 );
 
-/** express-mysql-session's table, declared here so migrations own it. */
-export const sessions = mysqlTable('sessions', {
-  sessionId: varchar('session_id', { length: 128 }).primaryKey(),
-  expires: int('expires', { unsigned: true }).notNull(),
-  data: mediumtext('data'),
-});
+/**
+ * Sessions (server/auth/session-store.ts; the first three columns are express-mysql-session's layout).
+ * user_id and user_version: the signed-in member and the users.version the session was issued with.
+ */
+export const sessions = mysqlTable(
+  'sessions',
+  {
+    sessionId: varchar('session_id', { length: 128 }).primaryKey(),
+    expires: int('expires', { unsigned: true }).notNull(),
+    data: mediumtext('data'),
+    userId: ref('user_id'),
+    userVersion: int('user_version', { unsigned: true }),
+  },
+  (t) => [index('sessions_user_idx').on(t.userId)],
+);

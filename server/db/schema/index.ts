@@ -7,3 +7,4 @@ export * from './mail';
 export * from './records';
 export * from './decisions';
 export * from './oos';
+export * from './limits';

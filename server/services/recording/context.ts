@@ -2,6 +2,7 @@
 import { and, asc, eq, inArray, isNull, or, sql } from 'drizzle-orm';
 import { addDays } from '../../../shared/compute/schedule';
 import type { DbOrTx } from '../../db/client';
+import { reusable } from '../../db/prepared';
 import { attributes, checkpoints, observations, samples, studies, studyAttributes } from '../../db/schema';
 import { notFound } from '../../http/errors';
 import type { AttributeRow } from './values';
@@ -38,30 +39,45 @@ export async function sampleAtCheckpoint(
   if (cp.studyId !== sample.studyId) return false;
   if (cp.kind !== 'initial') return cp.studyConditionId === sample.studyConditionId;
   if (sample.studyConditionId == null) return true;
-  const [held] = await db.select({ id: observations.id }).from(observations).where(and(eq(observations.sampleId, sample.id), eq(observations.checkpointId, cp.id))).limit(1);
+  const [held] = await heldAt(db, { sampleId: sample.id, checkpointId: cp.id });
   return Boolean(held);
 }
 
-/** Sample (by code) and checkpoint of the same study in the member's lab, the sample recorded there; or 404. */
-export async function context(db: DbOrTx, labId: number, code: string, checkpointId: number, lock = false): Promise<Context> {
-  const [sample] = await db
-    .select()
+// Built once and reused (server/db/prepared.ts): every recording request runs these.
+const heldAt = reusable((db) =>
+  db
+    .select({ id: observations.id })
+    .from(observations)
+    .where(and(eq(observations.sampleId, sql.placeholder('sampleId')), eq(observations.checkpointId, sql.placeholder('checkpointId'))))
+    .limit(1),
+);
+const sampleByCode = reusable((db) =>
+  db
+    .select({ sample: samples, study: studies })
     .from(samples)
-    .where(and(eq(samples.labId, labId), eq(samples.code, code.toUpperCase())));
-  if (!sample) throw notFound('No such sample in your lab');
-  const q = db
-    .select()
-    .from(checkpoints)
-    .where(and(eq(checkpoints.labId, labId), eq(checkpoints.id, checkpointId), eq(checkpoints.studyId, sample.studyId)));
-  const [checkpoint] = lock ? await q.for('update') : await q;
-  if (!checkpoint || !(await sampleAtCheckpoint(db, sample, checkpoint))) throw notFound('This sample has no such checkpoint');
-  const [study] = await db.select().from(studies).where(eq(studies.id, sample.studyId));
-  const attrs = await db
+    .innerJoin(studies, eq(studies.id, samples.studyId))
+    .where(and(eq(samples.labId, sql.placeholder('labId')), eq(samples.code, sql.placeholder('code')))),
+);
+const checkpointWhere = and(eq(checkpoints.labId, sql.placeholder('labId')), eq(checkpoints.id, sql.placeholder('id')), eq(checkpoints.studyId, sql.placeholder('studyId')));
+const checkpointOf = reusable((db) => db.select().from(checkpoints).where(checkpointWhere));
+const checkpointLocked = reusable((db) => db.select().from(checkpoints).where(checkpointWhere).for('update'));
+const attributesOf = reusable((db) =>
+  db
     .select({ sa: studyAttributes, a: attributes })
     .from(studyAttributes)
     .innerJoin(attributes, eq(attributes.id, studyAttributes.attributeId))
-    .where(eq(studyAttributes.studyId, study.id))
-    .orderBy(asc(studyAttributes.position));
+    .where(eq(studyAttributes.studyId, sql.placeholder('studyId')))
+    .orderBy(asc(studyAttributes.position)),
+);
+
+/** Sample (by code) and checkpoint of the same study in the member's lab, the sample recorded there; or 404. */
+export async function context(db: DbOrTx, labId: number, code: string, checkpointId: number, lock = false): Promise<Context> {
+  const [found] = await sampleByCode(db, { labId, code: code.toUpperCase() });
+  if (!found) throw notFound('No such sample in your lab');
+  const { sample, study } = found;
+  const [checkpoint] = await (lock ? checkpointLocked : checkpointOf)(db, { labId, id: checkpointId, studyId: sample.studyId });
+  if (!checkpoint || !(await sampleAtCheckpoint(db, sample, checkpoint))) throw notFound('This sample has no such checkpoint');
+  const attrs = await attributesOf(db, { studyId: study.id });
   return { sample, study, checkpoint, attrs };
 }
 

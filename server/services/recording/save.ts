@@ -4,9 +4,10 @@
  * out-of-specification investigation in the same transaction. The checkpoint closes itself when
  * every sample has every attribute.
  */
-import { and, eq, sql } from 'drizzle-orm';
+import { and, eq, inArray, sql } from 'drizzle-orm';
 import type { RecordEntry } from '../../../shared/schemas/records';
 import type { Db, DbOrTx } from '../../db/client';
+import { reusable } from '../../db/prepared';
 import { checkpoints, observations, samples, studyAttributes } from '../../db/schema';
 import { conflict, HttpError } from '../../http/errors';
 import { auditMany } from '../audit';
@@ -25,16 +26,39 @@ type ObservationRow = typeof observations.$inferSelect;
 export const unprocessable = (fields: Record<string, string>) =>
   new HttpError(422, 'unprocessable', Object.values(fields)[0] ?? 'Check the values', fields);
 
-/** Marks the checkpoint done when every sample has every attribute recorded (or not done with a reason), or reopens it. */
-export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId: number): Promise<void> {
-  const [cp] = await tx.select().from(checkpoints).where(eq(checkpoints.id, checkpointId));
+// Built once and reused (server/db/prepared.ts): every save runs these.
+const checkpointById = reusable((db) => db.select().from(checkpoints).where(eq(checkpoints.id, sql.placeholder('id'))));
+/** A pull's samples (its condition's), the study's attributes and the valid readings, in one statement. */
+const pullCounts = reusable((db) =>
+  db
+    .select({
+      samples: sql<number>`(SELECT count(*) FROM ${samples} WHERE ${samples.studyConditionId} = ${sql.placeholder('scId')})`,
+      attrs: sql<number>`(SELECT count(*) FROM ${studyAttributes} WHERE ${studyAttributes.studyId} = ${sql.placeholder('studyId')})`,
+      recorded: sql<number>`(SELECT count(*) FROM ${observations} WHERE ${observations.checkpointId} = ${sql.placeholder('id')} AND ${observations.voided} = false)`,
+    })
+    .from(sql`(SELECT 1) AS one`),
+);
+const recordedAt = reusable((db) => db.select({ studyAttributeId: observations.studyAttributeId }).from(observations).where(and(eq(observations.sampleId, sql.placeholder('sampleId')), eq(observations.checkpointId, sql.placeholder('checkpointId')))));
+
+/**
+ * Marks the checkpoint done when every sample has every attribute recorded (or not done with a reason), or reopens it.
+ * `locked`: the checkpoint row as this transaction read it with FOR UPDATE (saves reading it again).
+ */
+export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId: number, locked?: typeof checkpoints.$inferSelect): Promise<void> {
+  const cp = locked ?? (await checkpointById(tx, { id: checkpointId }))[0];
   if (cp.kind === 'extra_day0') return;
-  const [{ n: sampleCount }] = await tx.select({ n: sql<number>`count(*)` }).from(samples).where(samplesAtCheckpoint(cp));
-  const [{ n: attrCount }] = await tx.select({ n: sql<number>`count(*)` }).from(studyAttributes).where(eq(studyAttributes.studyId, cp.studyId));
-  const [{ n: recorded }] = await tx
-    .select({ n: sql<number>`count(*)` })
-    .from(observations)
-    .where(and(eq(observations.checkpointId, checkpointId), eq(observations.voided, false)));
+  let sampleCount: number, attrCount: number, recorded: number;
+  if (cp.kind !== 'initial') {
+    const [c] = await pullCounts(tx, { scId: cp.studyConditionId, studyId: cp.studyId, id: checkpointId });
+    [sampleCount, attrCount, recorded] = [Number(c.samples), Number(c.attrs), Number(c.recorded)];
+  } else {
+    [{ n: sampleCount }] = await tx.select({ n: sql<number>`count(*)` }).from(samples).where(samplesAtCheckpoint(cp));
+    [{ n: attrCount }] = await tx.select({ n: sql<number>`count(*)` }).from(studyAttributes).where(eq(studyAttributes.studyId, cp.studyId));
+    [{ n: recorded }] = await tx
+      .select({ n: sql<number>`count(*)` })
+      .from(observations)
+      .where(and(eq(observations.checkpointId, checkpointId), eq(observations.voided, false)));
+  }
   const complete = Number(sampleCount) > 0 && Number(recorded) >= Number(sampleCount) * Number(attrCount);
   if (complete && cp.status === 'open') {
     await tx.update(checkpoints).set({ status: 'done', closedAt: new Date(), closedBy: userId }).where(eq(checkpoints.id, checkpointId));
@@ -62,10 +86,7 @@ export async function recordObservations(
     const closed = checkpointOpen(ctx.study, ctx.checkpoint, today, allowEarly && who.role !== 'technician');
     if (closed) throw conflict(closed);
     const base = await baselines(tx, ctx.study, ctx.sample, ctx.attrs);
-    const existing = await tx
-      .select()
-      .from(observations)
-      .where(and(eq(observations.sampleId, ctx.sample.id), eq(observations.checkpointId, checkpointId)));
+    const existing = await recordedAt(tx, { sampleId: ctx.sample.id, checkpointId });
     const fields: Record<string, string> = {};
     const conflicts: Record<string, string> = {};
     const seen = new Set<number>();
@@ -102,7 +123,15 @@ export async function recordObservations(
     if (Object.keys(conflicts).length) throw conflict(Object.values(conflicts)[0], conflicts);
     // One multi-row INSERT for the readings and one for their audit rows (ids in insert order).
     if (!rows.length) throw unprocessable({ entries: 'Nothing to save' });
-    const ids = await tx.insert(observations).values(rows.map(({ attr: _attr, message: _m, ...row }) => row)).$returningId();
+    await tx.insert(observations).values(rows.map(({ attr: _attr, message: _m, ...row }) => row));
+    // Ids by the cell's unique key, not $returningId: that counts up from insertId by 1, while a Galera
+    // cluster spaces a multi-row INSERT's ids by auto_increment_increment (the node count).
+    const made = await tx
+      .select({ id: observations.id, studyAttributeId: observations.studyAttributeId })
+      .from(observations)
+      .where(and(eq(observations.sampleId, ctx.sample.id), eq(observations.checkpointId, checkpointId), inArray(observations.studyAttributeId, rows.map((r) => r.studyAttributeId))));
+    const idOf = new Map(made.map((m) => [m.studyAttributeId, m.id]));
+    const ids = rows.map((r) => ({ id: idOf.get(r.studyAttributeId)! }));
     await auditMany(
       tx,
       rows.map(({ attr, ...row }, i) => ({
@@ -145,6 +174,6 @@ export async function recordObservations(
           : [],
       ),
     );
-    await settleCheckpoint(tx, checkpointId, who.id);
+    await settleCheckpoint(tx, checkpointId, who.id, ctx.checkpoint);
   });
 }
