@@ -5,6 +5,7 @@ import { decisionInput, submitInput } from '../../shared/schemas/reviews';
 import { requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db } from '../db/client';
+import type { FileStore } from '../files';
 import { attributes, batches, checkpoints, observations, samples, storageConditions, studies, studyAttributes, studyConditions, users, variants } from '../db/schema';
 import { idParam, notFound, parse } from '../http/errors';
 import type { Logger } from '../log';
@@ -12,15 +13,14 @@ import { decide, decidedStudies, reviewOf, reviewQueue, submitStudy } from '../s
 import { valueOf } from '../services/records';
 import { studyReportPdf } from '../services/report';
 import { todayIn } from '../services/studies';
-import { join } from 'node:path';
 
 /** Mounted at /api: submitting for review, the owner's queue and signed decisions, the observations export. */
-export function reviewRoutes(db: Db, log: Logger, uploadsDir: string): Router {
+export function reviewRoutes(db: Db, log: Logger, files: FileStore): Router {
   const r = Router();
 
   r.get('/studies/:id/report.pdf', requireRole('technician'), async (req, res) => {
     const me = member(req);
-    const pdf = await studyReportPdf(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone), join(uploadsDir, 'photos'));
+    const pdf = await studyReportPdf(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone), files);
     res.set({ 'Content-Type': 'application/pdf', 'Content-Disposition': `inline; filename="stability-report-${req.params.id}.pdf"` });
     res.send(pdf);
   });

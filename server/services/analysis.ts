@@ -3,18 +3,19 @@
  * MKT per condition, and a suggested shelf life per variant from the shared
  * engine (shared/compute/suggest.ts), every figure with its reasons.
  */
-import { and, asc, eq, sql } from 'drizzle-orm';
 import { deltaE2000, deltaE76 } from '../../shared/compute/color';
 import type { Criterion } from '../../shared/compute/criteria';
 import { daysBetween } from '../../shared/compute/schedule';
 import { limitValueText, shelfLifeMultiBatch, type AcceptanceLimit } from '../../shared/compute/shelf-life';
 import { DAYS_PER_MONTH, suggestShelfLife, type SuggestCondition } from '../../shared/compute/suggest';
+import type { ConditionKind, ConditionRole } from '../../shared/domain';
 import type { Db } from '../db/client';
-import { chamberLogs, chamberReadings, checkpoints, observations, samples, studyAttributes } from '../db/schema';
-import { studyDetail } from './studies';
+import { rows } from '../db/prepared';
+import { notFound } from '../http/errors';
+import { conditionMkts, type ConditionMkt } from './chamber-rollups';
 import type { Regression, Series, SeriesPoint, StudyAnalysis } from '../../shared/schemas/analysis';
 import { valueOf } from './records';
-import { attributes } from '../db/schema';
+import type { AttributeRow } from './recording/values';
 
 export type { Regression, Series, SeriesPoint, StudyAnalysis } from '../../shared/schemas/analysis';
 
@@ -43,61 +44,113 @@ export function absoluteLimit(c: Criterion, baseline: number | null, decimals: n
   }
 }
 
-/** SQL mean kinetic temperature (ΔH/R = 10 000 K; Haynes 1971, as in USP <1160>) over a condition's logs in a period. */
-async function mktFor(db: Db, labId: number, conditionId: number, from: string, to: string) {
-  const [row] = await db
-    .select({
-      n: sql<number>`count(*)`,
-      mkt: sql<number | null>`-10000 / LN(AVG(EXP(-10000 / (${chamberReadings.tempC} + 273.15)))) - 273.15`,
-      min: sql<number | null>`MIN(${chamberReadings.tempC})`,
-      max: sql<number | null>`MAX(${chamberReadings.tempC})`,
-      mean: sql<number | null>`AVG(${chamberReadings.tempC})`,
-      first: sql<string | null>`DATE_FORMAT(MIN(${chamberReadings.at}), '%Y-%m-%d')`,
-      last: sql<string | null>`DATE_FORMAT(MAX(${chamberReadings.at}), '%Y-%m-%d')`,
-    })
-    .from(chamberReadings)
-    .innerJoin(chamberLogs, eq(chamberLogs.id, chamberReadings.logId))
-    .where(
-      and(
-        eq(chamberLogs.labId, labId),
-        eq(chamberLogs.conditionId, conditionId),
-        sql`${chamberReadings.at} >= ${from}`,
-        sql`${chamberReadings.at} < DATE_ADD(${to}, INTERVAL 1 DAY)`,
-      ),
-    );
-  const n = Number(row?.n ?? 0);
-  const r2 = (x: unknown) => Math.round(Number(x) * 100) / 100;
-  return n > 0 && row.mkt != null
-    ? { mktC: r2(row.mkt), minC: r2(row.min), maxC: r2(row.max), meanC: r2(row.mean), readings: n, from, to, firstOn: String(row.first), lastOn: String(row.last) }
+/** Rounds a condition's mean kinetic temperature figures for the analysis (ΔH/R = 10 000 K; Haynes 1971, as in USP <1160>). */
+function mktOut(row: ConditionMkt | undefined, from: string, to: string) {
+  const r2 = (x: number) => Math.round(x * 100) / 100;
+  return row
+    ? { mktC: r2(row.mktC), minC: r2(row.minC), maxC: r2(row.maxC), meanC: r2(row.meanC), readings: row.n, from, to, firstOn: row.first, lastOn: row.last }
     : null;
 }
 
-export async function analyzeStudy(db: Db, labId: number, studyId: number, today: string, q10: number): Promise<StudyAnalysis> {
-  const d = await studyDetail(db, labId, studyId, today);
-  const attrRows = await db
-    .select({ sa: studyAttributes, a: attributes })
-    .from(studyAttributes)
-    .innerJoin(attributes, eq(attributes.id, studyAttributes.attributeId))
-    .where(eq(studyAttributes.studyId, studyId))
-    .orderBy(asc(studyAttributes.position));
-  // Only the columns the analysis reads: whole rows of three tables cost several times more to map.
-  const obs = await db
-    .select({
-      o: {
-        studyAttributeId: observations.studyAttributeId,
-        valueNum: observations.valueNum,
-        valueText: observations.valueText,
-        valueBool: observations.valueBool,
-        verdict: observations.verdict,
-      },
-      cp: { id: checkpoints.id, kind: checkpoints.kind, label: checkpoints.label, dueDate: checkpoints.dueDate, offsetUnit: checkpoints.offsetUnit, offsetN: checkpoints.offsetN },
-      s: { batchId: samples.batchId, studyConditionId: samples.studyConditionId, code: samples.code },
-    })
-    .from(observations)
-    .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
-    .innerJoin(samples, eq(samples.id, observations.sampleId))
-    .where(and(eq(observations.labId, labId), eq(observations.studyId, studyId), eq(observations.voided, false)))
-    .orderBy(asc(checkpoints.dueDate));
+/** The attribute columns the analysis reads (study attribute joined with its attribute). */
+interface AttrRow {
+  sa: { id: number; criterion: Criterion };
+  a: { code: string; name: string; kind: AttributeRow['kind']; unit: string | null; decimals: number; scale: AttributeRow['scale'] };
+}
+
+const json = <T>(v: unknown): T => (typeof v === 'string' ? (JSON.parse(v) as T) : (v as T));
+const num = (v: unknown) => (v == null ? null : Number(v));
+
+/**
+ * What the analysis reads of a study, in six prepared statements run together: the study, its
+ * batches, conditions, attributes, samples and every valid reading (only the columns used; rows as
+ * plain objects, not mapped through the ORM). 404 when the study is not in the lab.
+ */
+async function analysisData(db: Db, labId: number, studyId: number) {
+  const [study, batchRows, condRows, attrRows, sampleRows, obsRows] = await Promise.all([
+    rows<{ start_date: string; q10: string }>(
+      db,
+      "SELECT DATE_FORMAT(s.start_date, '%Y-%m-%d') AS start_date, l.q10 FROM studies s JOIN labs l ON l.id = s.lab_id WHERE s.lab_id = ? AND s.id = ?",
+      [labId, studyId],
+    ),
+    rows<{ id: number; lot_code: string; made_on: string | null; vid: number; vcode: string; vname: string }>(
+      db,
+      "SELECT b.id, b.lot_code, DATE_FORMAT(b.made_on, '%Y-%m-%d') AS made_on, v.id AS vid, v.code AS vcode, v.name AS vname " +
+        'FROM study_batches sb JOIN batches b ON b.id = sb.batch_id JOIN variants v ON v.id = b.variant_id WHERE sb.study_id = ? AND b.lab_id = ? ORDER BY v.code, b.lot_code',
+      [studyId, labId],
+    ),
+    rows<{ id: number; role: ConditionRole; condition_id: number; name: string; kind: ConditionKind; location: string; setpoint_c: string | null }>(
+      db,
+      'SELECT sc.id, sc.role, c.id AS condition_id, c.name, c.kind, c.location, c.setpoint_c ' +
+        'FROM study_conditions sc JOIN storage_conditions c ON c.id = sc.condition_id WHERE sc.study_id = ? AND sc.lab_id = ? ORDER BY sc.position',
+      [studyId, labId],
+    ),
+    rows<{ id: number; criterion: unknown; code: string; name: string; kind: AttributeRow['kind']; unit: string | null; decimals: number; scale: unknown }>(
+      db,
+      'SELECT sa.id, sa.criterion, a.code, a.name, a.kind, a.unit, a.decimals, a.scale ' +
+        'FROM study_attributes sa JOIN attributes a ON a.id = sa.attribute_id WHERE sa.study_id = ? AND sa.lab_id = ? ORDER BY sa.position',
+      [studyId, labId],
+    ),
+    rows<{ code: string; study_condition_id: number | null; batch_id: number }>(
+      db,
+      'SELECT code, study_condition_id, batch_id FROM samples WHERE lab_id = ? AND study_id = ? ORDER BY label_order',
+      [labId, studyId],
+    ),
+    rows<{
+      study_attribute_id: number;
+      value_num: number | null;
+      value_text: string | null;
+      value_bool: number | null;
+      verdict: string;
+      cp_id: number;
+      kind: string;
+      label: string;
+      due_date: string;
+      offset_unit: string;
+      offset_n: number;
+      batch_id: number;
+      study_condition_id: number | null;
+      code: string;
+    }>(
+      db,
+      "SELECT o.study_attribute_id, o.value_num, o.value_text, o.value_bool, o.verdict, c.id AS cp_id, c.kind, c.label, DATE_FORMAT(c.due_date, '%Y-%m-%d') AS due_date, " +
+        'c.offset_unit, c.offset_n, s.batch_id, s.study_condition_id, s.code ' +
+        'FROM observations o JOIN checkpoints c ON c.id = o.checkpoint_id JOIN samples s ON s.id = o.sample_id ' +
+        'WHERE o.lab_id = ? AND o.study_id = ? AND o.voided = 0 ORDER BY c.due_date, o.id',
+      [labId, studyId],
+    ),
+  ]);
+  if (!study.length) throw notFound('No such study in your lab');
+  return {
+    startDate: study[0].start_date,
+    labQ10: Number(study[0].q10),
+    batches: batchRows.map((b) => ({ id: b.id, lotCode: b.lot_code, madeOn: b.made_on, variant: { id: b.vid, code: b.vcode, name: b.vname } })),
+    conditions: condRows.map((c) => ({ id: c.id, conditionId: c.condition_id, name: c.name, kind: c.kind, location: c.location, setpointC: num(c.setpoint_c), role: c.role })),
+    attrRows: attrRows.map(
+      (r): AttrRow => ({
+        sa: { id: r.id, criterion: json<Criterion>(r.criterion) },
+        a: { code: r.code, name: r.name, kind: r.kind, unit: r.unit, decimals: r.decimals, scale: r.scale == null ? null : json<AttributeRow['scale']>(r.scale) },
+      }),
+    ),
+    samples: sampleRows.map((r) => ({ code: r.code, studyConditionId: r.study_condition_id, batchId: r.batch_id })),
+    obs: obsRows.map((r) => ({
+      o: { studyAttributeId: r.study_attribute_id, valueNum: r.value_num, valueText: r.value_text, valueBool: r.value_bool == null ? null : r.value_bool === 1, verdict: r.verdict as SeriesPoint['verdict'] },
+      cp: { id: r.cp_id, kind: r.kind, label: r.label, dueDate: r.due_date, offsetUnit: r.offset_unit, offsetN: r.offset_n },
+      s: { batchId: r.batch_id, studyConditionId: r.study_condition_id, code: r.code },
+    })),
+  };
+}
+
+/** `q10`: the rate factor for projections; the lab's setting when omitted. */
+export async function analyzeStudy(db: Db, labId: number, studyId: number, today: string, q10Asked?: number): Promise<StudyAnalysis> {
+  const d = await analysisData(db, labId, studyId);
+  const q10 = q10Asked ?? d.labQ10;
+  // The chamber figures are read while the engine computes.
+  const mktQuery = conditionMkts(db, labId, d.conditions.map((c) => c.conditionId), d.startDate, today);
+  mktQuery.catch(() => undefined);
+  const { attrRows, obs } = d;
+  const attrOf = new Map(attrRows.map((x) => [x.sa.id, x]));
+  const attrPosition = new Map(attrRows.map((x, i) => [x.sa.id, i]));
 
   const batchOf = new Map(d.batches.map((b) => [b.id, b]));
   const variants = [...new Map(d.batches.map((b) => [b.variant.id, b.variant])).values()].map((v) => ({
@@ -108,16 +161,25 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   // ---------------------------------------------------------------- series
   // The initial test is t = 0 of every condition for its batch: its readings join each condition's series.
   const seriesMap = new Map<string, Series>();
+  // Months from the start, once per checkpoint.
+  const monthsByCp = new Map<number, number>();
+  const monthsAt = (cp: (typeof obs)[number]['cp']) => {
+    let m = monthsByCp.get(cp.id);
+    if (m === undefined) monthsByCp.set(cp.id, (m = monthsOf(d.startDate, cp)));
+    return m;
+  };
   const initialValues = new Map<string, number[]>();
   for (const { o, cp, s } of obs) {
-    const a = attrRows.find((x) => x.sa.id === o.studyAttributeId);
+    const a = attrOf.get(o.studyAttributeId);
     const b = batchOf.get(s.batchId);
     if (!a || !b) continue;
     const value = o.verdict === 'not_done' ? null : valueOf(a.a.kind, o);
     const initial = cp.kind === 'initial';
     if (initial && typeof value === 'number') {
       const k = `${b.variant.id}:${o.studyAttributeId}`;
-      initialValues.set(k, [...(initialValues.get(k) ?? []), value]);
+      const list = initialValues.get(k);
+      if (list) list.push(value);
+      else initialValues.set(k, [value]);
     }
     const targets = initial ? d.conditions.map((c) => c.id) : s.studyConditionId != null ? [s.studyConditionId] : [];
     for (const scId of targets) {
@@ -128,7 +190,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
       seriesMap.get(key)!.points.push({
         checkpointId: cp.id,
         label: cp.label,
-        months: initial ? 0 : monthsOf(d.startDate, cp),
+        months: initial ? 0 : monthsAt(cp),
         dueDate: cp.dueDate,
         value,
         verdict: o.verdict,
@@ -137,6 +199,20 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
     }
   }
   const series = [...seriesMap.values()];
+  // Series by variant, attribute and condition (and by variant and condition, variant and attribute), for the lookups below.
+  const group = (key: (x: Series) => string) => {
+    const m = new Map<string, Series[]>();
+    for (const x of series) {
+      const k = key(x);
+      const list = m.get(k);
+      if (list) list.push(x);
+      else m.set(k, [x]);
+    }
+    return (k: string) => m.get(k) ?? [];
+  };
+  const seriesVAC = group((x) => `${x.variantId}:${x.studyAttributeId}:${x.studyConditionId}`);
+  const seriesVC = group((x) => `${x.variantId}:${x.studyConditionId}`);
+  const seriesVA = group((x) => `${x.variantId}:${x.studyAttributeId}`);
 
   // ---------------------------------------------------------------- limits per variant and attribute
   // A change criterion's limits come from the variant's mean initial reading (a study recorded before
@@ -147,8 +223,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
       if (a.kind !== 'measured') continue;
       const day0 =
         initialValues.get(`${v.id}:${sa.id}`) ??
-        series
-          .filter((x) => x.variantId === v.id && x.studyAttributeId === sa.id)
+        seriesVA(`${v.id}:${sa.id}`)
           .flatMap((x) => x.points.filter((p) => p.months === 0 && typeof p.value === 'number').map((p) => p.value as number));
       const baseline = day0.length ? day0.reduce((s, x) => s + x, 0) / day0.length : null;
       const l = absoluteLimit(sa.criterion, baseline, a.decimals);
@@ -160,8 +235,7 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   const regressions: Regression[] = [];
   for (const c of d.conditions.filter((x) => x.role === 'real_time')) {
     for (const l of limits) {
-      const pts = series
-        .filter((x) => x.variantId === l.variantId && x.studyAttributeId === l.studyAttributeId && x.studyConditionId === c.id)
+      const pts = seriesVAC(`${l.variantId}:${l.studyAttributeId}:${c.id}`)
         .flatMap((x) => x.points.filter((p) => typeof p.value === 'number').map((p) => ({ batch: x.lotCode, t: p.months, y: p.value as number })));
       if (!pts.length) continue;
       const r = shelfLifeMultiBatch(pts, l.limit);
@@ -190,14 +264,16 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   const [lId, aId, bId] = [code('color_l'), code('color_a'), code('color_b')];
   const deltaE: StudyAnalysis['deltaE'] = [];
   if (lId && aId && bId) {
-    const initialIds = new Set(d.checkpoints.filter((c) => c.kind === 'initial').map((c) => c.id));
+    const initialIds = new Set(obs.filter((x) => x.cp.kind === 'initial').map((x) => x.cp.id));
     for (const s of d.samples) {
       if (s.studyConditionId == null) continue;
       // This sample's own readings, and its batch's initial test as the reference.
       const pick = (id: number) =>
         series
           .find((x) => x.studyAttributeId === id && x.studyConditionId === s.studyConditionId && x.batchId === s.batchId)
-          ?.points.filter((p, i, all) => (p.sampleCode === s.code || initialIds.has(p.checkpointId)) && all.findIndex((q) => q.checkpointId === p.checkpointId) === i) ?? [];
+          ?.points.filter((p) => p.sampleCode === s.code || initialIds.has(p.checkpointId))
+          // One point per checkpoint (a batch with several retained samples has several initial readings): filtered first, then the first kept.
+          .filter((p, i, mine) => mine.findIndex((q) => q.checkpointId === p.checkpointId) === i) ?? [];
       const L = pick(lId);
       const A = pick(aId);
       const B = pick(bId);
@@ -220,22 +296,23 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   const firstFailures: StudyAnalysis['firstFailures'] = [];
   for (const v of variants) {
     for (const c of d.conditions) {
-      const fails = series
-        .filter((x) => x.variantId === v.id && x.studyConditionId === c.id)
-        .flatMap((x) => x.points.filter((p) => p.verdict === 'fail').map((p) => ({ p, attr: attrRows.find((a) => a.sa.id === x.studyAttributeId)!.a.name })));
+      const fails = seriesVC(`${v.id}:${c.id}`)
+        .flatMap((x) => x.points.filter((p) => p.verdict === 'fail').map((p) => ({ p, attr: attrOf.get(x.studyAttributeId)!.a.name, position: attrPosition.get(x.studyAttributeId)! })));
       const first = fails.sort((a, b) => a.p.months - b.p.months)[0];
       firstFailures.push({
         variantId: v.id,
         studyConditionId: c.id,
         label: first?.p.label ?? null,
         months: first?.p.months ?? null,
-        attributes: first ? [...new Set(fails.filter((f) => f.p.months === first.p.months).map((f) => f.attr))] : [],
+        // In the study's attribute order.
+        attributes: first ? [...new Set(fails.filter((f) => f.p.months === first.p.months).sort((x, y) => x.position - y.position).map((f) => f.attr))] : [],
       });
     }
   }
 
   // ---------------------------------------------------------------- suggestion per variant
   const realTimeCold = d.conditions.some((c) => c.role === 'real_time' && c.setpointC != null && c.setpointC <= 8);
+  const initialCheckpoints = new Set(obs.filter((x) => x.cp.kind === 'initial').map((x) => x.cp.id));
   const suggestions = variants.map((v) => {
     const conditions: SuggestCondition[] = d.conditions.map((c) => ({
       name: c.name,
@@ -247,14 +324,14 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
         name: a.name,
         kind: a.kind,
         limit: limits.find((l) => l.variantId === v.id && l.studyAttributeId === sa.id)?.limit ?? null,
-        observations: series
-          .filter((x) => x.variantId === v.id && x.studyAttributeId === sa.id && x.studyConditionId === c.id)
+        observations: seriesVAC(`${v.id}:${sa.id}:${c.id}`)
           .flatMap((x) =>
             x.points.map((p) => ({
               months: p.months,
               batch: x.lotCode,
               value: typeof p.value === 'number' && a.kind === 'measured' ? p.value : null,
               passed: p.verdict === 'pass' ? true : p.verdict === 'fail' ? false : null,
+              initial: initialCheckpoints.has(p.checkpointId),
             })),
           ),
       })),
@@ -266,17 +343,16 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
     };
   });
 
-  const conditionsOut = await Promise.all(
-    d.conditions.map(async (c) => ({
-      id: c.id,
-      name: c.name,
-      kind: c.kind,
-      role: c.role,
-      setpointC: c.setpointC,
-      location: c.location,
-      mkt: await mktFor(db, labId, c.conditionId, d.startDate, today),
-    })),
-  );
+  const mkts = await mktQuery;
+  const conditionsOut = d.conditions.map((c) => ({
+    id: c.id,
+    name: c.name,
+    kind: c.kind,
+    role: c.role,
+    setpointC: c.setpointC,
+    location: c.location,
+    mkt: mktOut(mkts.get(c.conditionId), d.startDate, today),
+  }));
 
   return {
     studyId,

@@ -1,10 +1,12 @@
+import type { AuditAction } from '../../shared/audit-words';
 import type { DbOrTx } from '../db/client';
 import { auditLog } from '../db/schema';
 
 export interface AuditEntry {
   labId: number;
   userId: number | null;
-  action: 'create' | 'update' | 'delete' | 'void' | 'sign' | 'sign_failed' | 'submit' | 'sign_in' | 'lockout' | 'amend' | 'import' | 'migrate' | 'remeasure' | 'confirm' | 'close';
+  /** One of the audit vocabulary's actions (shared/audit-words.ts gives each its label). */
+  action: AuditAction;
   entity: string;
   entityId?: string | number | null;
   studyId?: number | null;

@@ -3,18 +3,20 @@
  * pdfmake, charts rendered by ECharts as SVG on the server, the shipped Inter
  * font, black-and-white friendly (verdicts in words, not colors).
  */
-import { readFile } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { join } from 'node:path';
-import * as echarts from 'echarts';
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import { COMPARED_LEVEL_LABELS, type ComparedLevel } from '../../shared/compute/criteria';
 import { reasonMethodName } from '../../shared/compute/suggest';
+import { auditKindLabel } from '../../shared/audit-words';
+import { scheduleStateText } from '../../shared/schedule-words';
 import { criterionText, formatDecimals } from '../../shared/criterion-text';
 import { CONDITION_ROLE_LABELS, DECISION_OUTCOME_LABELS, PRODUCT_TYPE_LABELS, STUDY_STATUS_LABELS, type ProductType } from '../../shared/domain';
 import type { Db } from '../db/client';
+import { photoKey, readAll, type FileStore } from '../files';
 import { auditLog, batches, labs, photos } from '../db/schema';
 import { analyzeStudy } from './analysis';
+import { attributeCharts } from './report-charts';
 import { reviewOf } from './reviews';
 import { studyDetail } from './studies';
 
@@ -63,7 +65,7 @@ const fmtValue = (v: unknown, decimals: number | null = null) =>
         : typeof v === 'number' && decimals != null
           ? formatDecimals(v, decimals)
           : String(v);
-const VERDICT: Record<string, string> = { pass: 'pass', fail: 'FAIL', no_criterion: '', needs_baseline: 'no day 0', not_done: 'not done' };
+const VERDICT: Record<string, string> = { pass: 'pass', fail: 'FAIL', no_criterion: '', needs_baseline: 'no initial value', not_done: 'not done' };
 
 type PdfNodeInfo = { headlineLevel?: number; style?: unknown; table?: unknown; columns?: unknown; stack?: boolean };
 /**
@@ -77,54 +79,16 @@ function headingEndsPage(node: PdfNodeInfo, nodes: { getFollowingNodesOnPage(): 
   return !nodes.getFollowingNodesOnPage().some((n) => n.headlineLevel == null && n.style !== 'running' && n.style !== 'th' && !n.table && !n.columns && !n.stack);
 }
 
-/** One measured attribute over time, every series a line with its own dash pattern (black-and-white friendly). */
-function chartSvg(title: string, unit: string | null, series: { name: string; points: [number, number][] }[], limit?: { lower?: number | null; upper?: number | null }): string {
-  const chart = echarts.init(null, null, { renderer: 'svg', ssr: true, width: 720, height: 300 });
-  const dashes = ['solid', 'dashed', 'dotted', [8, 3, 2, 3], [2, 2], [12, 4], [4, 4, 1, 4]] as const;
-  const symbols = ['circle', 'rect', 'triangle', 'diamond', 'emptyCircle', 'emptyRect', 'emptyTriangle', 'pin'];
-  chart.setOption({
-    animation: false,
-    backgroundColor: '#ffffff',
-    textStyle: { fontFamily: 'Inter, sans-serif' },
-    title: { text: title, left: 0, textStyle: { fontSize: 13, fontWeight: 600, color: '#111' } },
-    legend: { bottom: 0, left: 0, textStyle: { fontSize: 10, color: '#222' } },
-    grid: { left: 56, right: 16, top: 36, bottom: 64 },
-    xAxis: { type: 'value', name: 'months', nameLocation: 'middle', nameGap: 22, axisLine: { lineStyle: { color: '#444' } }, splitLine: { show: false } },
-    yAxis: {
-      type: 'value',
-      name: unit ?? '',
-      scale: true,
-      // Keep the acceptance limits in view.
-      min: (v: { min: number }) => Math.min(v.min, limit?.lower ?? v.min),
-      max: (v: { max: number }) => Math.max(v.max, limit?.upper ?? v.max), axisLine: { show: true, lineStyle: { color: '#444' } }, splitLine: { lineStyle: { color: '#e5e5e5' } } },
-    series: series.map((s, i) => ({
-      name: s.name,
-      type: 'line',
-      data: s.points,
-      symbol: symbols[i % symbols.length],
-      symbolSize: 6,
-      lineStyle: { type: dashes[i % dashes.length], width: 1.5, color: ['#111', '#444', '#666', '#222', '#888'][i % 5] },
-      itemStyle: { color: ['#111', '#444', '#666', '#222', '#888'][i % 5] },
-      markLine:
-        i === 0 && limit
-          ? {
-              symbol: 'none',
-              label: { formatter: '{b}', fontSize: 9 },
-              lineStyle: { type: 'dashed', color: '#000' },
-              data: [
-                ...(limit.lower != null ? [{ name: `limit ${+limit.lower.toFixed(2)}`, yAxis: limit.lower }] : []),
-                ...(limit.upper != null ? [{ name: `limit ${+limit.upper.toFixed(2)}`, yAxis: limit.upper }] : []),
-              ],
-            }
-          : undefined,
-    })),
-  });
-  const svg = chart.renderToSVGString();
-  chart.dispose();
-  return svg;
+/** "10 samples: 50 mL PET jar, PP lid, filled to 45 g", the fill written once even when the description has it. */
+export function samplesText(n: number, description: string | null | undefined, fillGrams: number | null | undefined): string {
+  const desc = (description ?? '').trim();
+  const fill = fillGrams != null && Number.isFinite(fillGrams) && fillGrams > 0 ? `${+fillGrams.toFixed(2)} g` : null;
+  const hasFill = fill !== null && (desc.includes(fill) || desc.replace(/\s+/g, '').includes(fill.replace(/\s+/g, '')));
+  const parts = [desc, fill && !hasFill ? `filled to ${fill}` : ''].filter(Boolean).join(', ');
+  return `${n} ${n === 1 ? 'sample' : 'samples'}${parts ? `: ${parts}` : ''}`;
 }
 
-export async function studyReportPdf(db: Db, labId: number, studyId: number, today: string, photosDir: string): Promise<Buffer> {
+export async function studyReportPdf(db: Db, labId: number, studyId: number, today: string, files: FileStore): Promise<Buffer> {
   const [lab] = await db.select().from(labs).where(eq(labs.id, labId));
   const d = await studyDetail(db, labId, studyId, today);
   const a = await analyzeStudy(db, labId, studyId, today, lab.q10);
@@ -142,8 +106,8 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
   };
   const condName = (id: number | null) => (id == null ? 'Initial test (before storage)' : (a.conditions.find((c) => c.id === id)?.name ?? String(id)));
   const h = (text: string) => ({ text, style: 'h2', margin: [0, 14, 0, 6], headlineLevel: 1 });
-  const table = (widths: (string | number)[], head: string[] | null, body: unknown[][]) => ({
-    table: { headerRows: head ? 1 : 0, widths, body: head ? [head.map((x) => ({ text: x, style: 'th' })), ...body] : body },
+  const table = (widths: (string | number)[], head: (string | { text: string; noWrap?: boolean; alignment?: string })[] | null, body: unknown[][]) => ({
+    table: { headerRows: head ? 1 : 0, widths, body: head ? [head.map((x) => (typeof x === 'string' ? { text: x, style: 'th' } : { ...x, style: 'th' })), ...body] : body },
     layout: { hLineWidth: (i: number) => (i <= 1 ? 0.8 : 0.3), vLineWidth: () => 0, hLineColor: () => '#555', paddingTop: () => 3, paddingBottom: () => 3 },
     fontSize: 8.5,
   });
@@ -156,30 +120,13 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
     return [
       { text: `Lot ${b.lotCode} (${variantName(b.variantId)}), made ${b.madeOn}, ${b.sizeGrams} g, ${b.packaging}`, bold: true, margin: [0, 6, 0, 2], headlineLevel: 2 },
       snap.length
-        ? table(['auto', '*', '*', 'auto'], ['Phase', 'Ingredient', 'INCI', '% w/w'], snap.map((l) => [l.phase ?? '', l.tradeName ?? l.ingredient ?? '', l.inciName ?? '', { text: Number(l.percent).toFixed(2), alignment: 'right' }]))
+        ? table(['auto', '*', '*', 'auto'], ['Phase', 'Ingredient', 'INCI', { text: '% w/w', noWrap: true, alignment: 'right' }], snap.map((l) => [l.phase ?? '', l.tradeName ?? l.ingredient ?? '', l.inciName ?? '', { text: Number(l.percent).toFixed(2), alignment: 'right' }]))
         : { text: 'No formula snapshot recorded for this lot.', italics: true },
     ];
   });
 
-  // Charts per measured attribute: one line per variant and condition (mean of samples).
-  const charts: unknown[] = [];
-  for (const attr of a.attributes.filter((x) => x.kind === 'measured')) {
-    const lines: { name: string; points: [number, number][] }[] = [];
-    for (const v of a.variants) {
-      for (const c of a.conditions) {
-        const pts = a.series
-          .filter((s) => s.variantId === v.id && s.studyConditionId === c.id && s.studyAttributeId === attr.id)
-          .flatMap((s) => s.points.filter((p) => typeof p.value === 'number').map((p) => [p.months, p.value as number] as [number, number]));
-        if (!pts.length) continue;
-        const byT = new Map<number, number[]>();
-        for (const [t, y] of pts) byT.set(t, [...(byT.get(t) ?? []), y]);
-        lines.push({ name: `${v.code} ${c.name}`, points: [...byT.entries()].sort((x, y) => x[0] - y[0]).map(([t, ys]) => [Math.round(t * 100) / 100, ys.reduce((s, y) => s + y, 0) / ys.length]) });
-      }
-    }
-    if (!lines.length) continue;
-    const limit = a.limits.find((l) => l.studyAttributeId === attr.id)?.limit;
-    charts.push({ svg: chartSvg(`${attr.name}${attr.unit ? ` (${attr.unit})` : ''}`, attr.unit, lines.slice(0, 8), limit ?? undefined), width: 500, margin: [0, 4, 0, 8] });
-  }
+  // Charts per measured attribute: one per condition, a line per variant (report-charts.ts).
+  const charts = a.attributes.filter((x) => x.kind === 'measured').flatMap((attr) => attributeCharts(a, attr));
 
   // Every observation, in long format.
   // The initial test appears in every condition's series (it is each one's t = 0): list its readings once.
@@ -193,14 +140,16 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       const key = `${p.checkpointId}:${p.sampleCode}:${s.studyAttributeId}`;
       if (initial && listed.has(key)) continue;
       listed.add(key);
-      obsBody.push([p.sampleCode, variantName(s.variantId).split(' ·')[0], s.lotCode, initial ? 'Initial test' : condName(s.studyConditionId), p.label, attr.name, `${fmtValue(p.value, attr.kind === 'measured' ? attr.decimals : null)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`, { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail' }]);
+      // codes, checkpoints and values on one line each (a lot code broken at its hyphens reads as two)
+      const one = (text: string) => ({ text, noWrap: text.length <= 24 });
+      obsBody.push([one(p.sampleCode), one(variantName(s.variantId).split(' ·')[0]), one(s.lotCode), initial ? 'Initial test' : condName(s.studyConditionId), one(p.label), attr.name, one(`${fmtValue(p.value, attr.kind === 'measured' ? attr.decimals : null)}${attr.unit && typeof p.value === 'number' ? ` ${attr.unit}` : ''}`), { text: VERDICT[p.verdict] ?? p.verdict, bold: p.verdict === 'fail', noWrap: true }]);
     }
   }
 
   const photoBlocks = [];
   for (const p of photoRows) {
     try {
-      const img = await readFile(join(photosDir, p.storedName));
+      const img = await readAll(files, photoKey(p.storedName));
       const sample = d.samples.find((s) => s.id === p.sampleId);
       const cp = d.checkpoints.find((c) => c.id === p.checkpointId);
       photoBlocks.push({ stack: [{ image: `data:${p.mime};base64,${img.toString('base64')}`, fit: [150, 110] }, { text: `${sample?.code ?? ''} · ${cp?.label ?? ''}${p.caption ? ` · ${p.caption}` : ''}`, fontSize: 7.5 }], width: 160, margin: [0, 0, 8, 8] });
@@ -213,7 +162,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
 
   const auditSummary = Object.entries(
     auditRows.reduce<Record<string, number>>((acc, r) => {
-      const k = `${r.action} ${r.entity}`;
+      const k = auditKindLabel(r.action, r.entity);
       acc[k] = (acc[k] ?? 0) + 1;
       return acc;
     }, {}),
@@ -249,7 +198,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
         ['Study status', STUDY_STATUS_LABELS[d.status]],
         ['Day 0', d.startDate],
         ['Responsible', d.responsible?.name ?? '—'],
-        ['Samples', `${d.samples.length} (${d.containerDescription || 'containers'})`],
+        ['Samples', samplesText(d.samples.length, d.containerDescription, d.fillGrams)],
         ['Report date', today],
       ]),
       h('Variants and formulas (as made in each lot)'),
@@ -266,12 +215,14 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       ])),
       { text: 'MKT: mean kinetic temperature, ΔH/R = 10 000 K (Haynes 1971, as used in USP <1160>), over the chamber log readings between day 0 and the report date; "Logged" gives the days the log covers.', style: 'muted', margin: [0, 3, 0, 0] },
       h('Schedule'),
-      table(['*', 'auto', 'auto', 'auto'], ['Condition', 'Checkpoint', 'Due', 'State'], d.checkpoints.map((c) => [condName(c.studyConditionId), c.label, c.dueDate, c.state.charAt(0).toUpperCase() + c.state.slice(1) + (c.missedReason ? ` (${c.missedReason})` : '')])),
+      table(['*', 'auto', 'auto', 'auto'], ['Condition', 'Checkpoint', 'Due', 'State'], d.checkpoints.map((c) => [condName(c.studyConditionId), c.label, c.dueDate, scheduleStateText(c.state, d.status) + (c.missedReason ? ` (${c.missedReason})` : '')])),
       h('Attributes and acceptance criteria'),
       table(['*', 'auto'], ['Attribute', 'Accepted when'], a.attributes.map((x) => [x.name, criterionText(x.criterion, { unit: x.unit, scale: x.scale })])),
       { text: 'Default criteria are common practice with no published source; the lab sets its own.', style: 'muted', margin: [0, 3, 0, 0] },
-      h('Charts'),
-      ...(charts.length ? charts : [{ text: 'No measured values yet.', italics: true }]),
+      // the heading sits inside the first attribute's block, so it never ends a page alone (see headingEndsPage)
+      ...(charts.length
+        ? [{ ...(charts[0] as { stack: unknown[] }), stack: [h('Charts'), { text: 'One chart per condition; each variant keeps its marker and line pattern on every chart. Values are means of the samples at each checkpoint.', style: 'muted' }, ...(charts[0] as { stack: unknown[] }).stack] }, ...charts.slice(1)]
+        : [h('Charts'), { text: 'No measured values yet.', italics: true }]),
       h('Suggested shelf life and reasons'),
       ...a.suggestions.flatMap((s) => [
         { text: `${variantName(s.variantId)}: ${s.result.months != null ? `${s.result.months} months` : 'no figure yet'} (${s.result.basis.replace('_', ' ')})`, bold: true, margin: [0, 6, 0, 2], headlineLevel: 2 },
@@ -309,7 +260,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
               { text: `${dec.variant}: ${DECISION_OUTCOME_LABELS[dec.outcome]}${dec.supersededById ? ' (superseded)' : ''}`, bold: true },
               { text: [dec.shelfLifeMonths ? `Shelf life ${dec.shelfLifeMonths} months. ` : '', dec.paoMonths ? `Period after opening ${dec.paoMonths} months. ` : '', dec.conditionsText ?? '', dec.comment ? ` ${dec.comment}` : ''].join('') },
               ...(dec.labelText ? [{ text: dec.labelText, style: 'muted' }] : []),
-              ...(dec.supersedeReason ? [{ text: `Supersedes decision ${dec.supersedesId}: ${dec.supersedeReason}`, style: 'muted' }] : []),
+              ...(dec.supersedeReason ? [{ text: `Supersedes decision no. ${dec.supersedesNo ?? dec.supersedesId}: ${dec.supersedeReason}`, style: 'muted' }] : []),
               {
                 table: {
                   widths: ['auto', '*'],
@@ -331,7 +282,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
           }))
         : [h('Decision and signatures'), { text: 'No decision has been signed yet.', italics: true }]),
       h('Audit summary'),
-      auditSummary.length ? table(['*', 'auto'], ['Event', 'Count'], auditSummary.map(([k, n]) => [k.replace('_', ' '), String(n)])) : { text: 'No audit entries.', italics: true },
+      auditSummary.length ? table(['*', 'auto'], ['Event', 'Count'], auditSummary.map(([k, n]) => [k, String(n)])) : { text: 'No audit entries.', italics: true },
       { text: 'Labelling rules (EU Regulation 1223/2009 Art. 19(1)(c)) and safety substantiation (US MoCRA 2022) are stated as applied; the lab’s regulatory adviser and safety assessor have the last word.', style: 'muted', margin: [0, 12, 0, 0] },
     ],
   };

@@ -1,8 +1,9 @@
 /**
  * The one-screen comparison of two to four variants: every attribute at every condition (the
- * latest result and whether it passes), the first failure per condition, and each variant's
- * suggested shelf life. Pure; no I/O.
+ * latest result, or the result as of a checkpoint the user picks, and whether it passes), the first
+ * failure per condition, and each variant's suggested shelf life. Pure; no I/O.
  */
+import { isCycleLabel } from '@shared/chart-style';
 import type { SuggestResult } from '@shared/compute/suggest';
 import { DASH, isNum, levelValue, num, valueWords } from './format';
 import type { AnalysisAttribute, AnalysisCondition, AnalysisVariant, FirstFailure, StudyAnalysis } from './types';
@@ -57,12 +58,38 @@ export function pickVariants(all: readonly AnalysisVariant[], wanted: readonly n
   return fill.slice(0, Math.min(MAX_COMPARE, Math.max(MIN_COMPARE, known.length)));
 }
 
-/** The latest result of one attribute for one variant at one condition. */
-export function compareCell(a: StudyAnalysis, attr: AnalysisAttribute, variantId: number, conditionId: number): CompareCell {
+/** A checkpoint the comparison can be read at. */
+export interface CompareCheckpoint {
+  label: string;
+  /** Months from day 0 (its due date's, for cycles). */
+  months: number;
+  /** A freeze-thaw cycle (listed apart from the checkpoints in time). */
+  cycle: boolean;
+}
+
+/** Checkpoints with results for these variants, in time order: first those in time, then the cycles. */
+export function compareCheckpoints(a: StudyAnalysis, variantIds: readonly number[]): CompareCheckpoint[] {
+  const byLabel = new Map<string, CompareCheckpoint>();
+  for (const s of a.series) {
+    if (!variantIds.includes(s.variantId)) continue;
+    for (const p of s.points) {
+      if (!isNum(p.months) || p.value === null || p.value === undefined || p.verdict === 'not_done') continue;
+      const had = byLabel.get(p.label);
+      if (!had || p.months < had.months) byLabel.set(p.label, { label: p.label, months: p.months, cycle: isCycleLabel(p.label) });
+    }
+  }
+  return [...byLabel.values()].sort((x, y) => Number(x.cycle) - Number(y.cycle) || x.months - y.months || x.label.localeCompare(y.label));
+}
+
+/** Results up to this many months (a checkpoint the user picked); null for every result. */
+const upTo = (asOf: number | null | undefined) => (p: { months: number }) => isNum(p.months) && (asOf == null || p.months <= asOf + 1e-9);
+
+/** The latest result of one attribute for one variant at one condition (as of a time in months, when given). */
+export function compareCell(a: StudyAnalysis, attr: AnalysisAttribute, variantId: number, conditionId: number, asOf: number | null = null): CompareCell {
   const pts = a.series
     .filter((s) => s.studyAttributeId === attr.id && s.variantId === variantId && s.studyConditionId === conditionId)
     .flatMap((s) => s.points)
-    .filter((p) => isNum(p.months));
+    .filter(upTo(asOf));
   const done = pts.filter((p) => p.verdict !== 'not_done' && p.value !== null && p.value !== undefined);
   const fails = pts.filter((p) => p.verdict === 'fail').sort((x, y) => x.months - y.months);
   const firstFail = fails[0]?.label ?? null;
@@ -93,8 +120,23 @@ export function compareCell(a: StudyAnalysis, attr: AnalysisAttribute, variantId
   return { text, readings: last.length, at: last[0].label, state, firstFail };
 }
 
-/** Every attribute (notes left out) at every condition for the chosen variants. */
-export function compareMatrix(a: StudyAnalysis, variantIds: readonly number[]): CompareMatrix {
+/** The first failure of a variant at a condition up to a time (months), from the results. */
+function firstFailureAsOf(a: StudyAnalysis, variantId: number, conditionId: number, asOf: number): FirstFailure {
+  const fails = a.series
+    .filter((x) => x.variantId === variantId && x.studyConditionId === conditionId)
+    .flatMap((x) => x.points.filter((p) => p.verdict === 'fail' && upTo(asOf)(p)).map((p) => ({ p, attr: a.attributes.find((y) => y.id === x.studyAttributeId)?.name ?? '' })));
+  const first = fails.sort((x, y) => x.p.months - y.p.months)[0];
+  return {
+    variantId,
+    studyConditionId: conditionId,
+    label: first?.p.label ?? null,
+    months: first?.p.months ?? null,
+    attributes: first ? [...new Set(fails.filter((f) => f.p.months === first.p.months).map((f) => f.attr))] : [],
+  };
+}
+
+/** Every attribute (notes left out) at every condition for the chosen variants, latest or as of a time (months). */
+export function compareMatrix(a: StudyAnalysis, variantIds: readonly number[], asOf: number | null = null): CompareMatrix {
   const variants = variantIds.map((id) => a.variants.find((v) => v.id === id)).filter((v): v is AnalysisVariant => !!v);
   const attrs = a.attributes.filter((x) => x.kind !== 'note');
   const conditions = [...a.conditions]
@@ -104,8 +146,10 @@ export function compareMatrix(a: StudyAnalysis, variantIds: readonly number[]): 
     })
     .map((c) => ({
       condition: c,
-      rows: attrs.map((attr) => ({ attribute: attr, cells: variants.map((v) => compareCell(a, attr, v.id, c.id)) })),
-      firstFailures: variants.map((v) => a.firstFailures.find((f) => f.variantId === v.id && f.studyConditionId === c.id) ?? null),
+      rows: attrs.map((attr) => ({ attribute: attr, cells: variants.map((v) => compareCell(a, attr, v.id, c.id, asOf)) })),
+      firstFailures: variants.map((v) =>
+        asOf == null ? (a.firstFailures.find((f) => f.variantId === v.id && f.studyConditionId === c.id) ?? null) : firstFailureAsOf(a, v.id, c.id, asOf),
+      ),
     }));
   return {
     variants,

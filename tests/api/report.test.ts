@@ -56,6 +56,14 @@ describe('stability report PDF', () => {
     for (const s of ['Stability report', 'Test study', 'Storage conditions and chamber records', 'Every observation', 'Decision and signatures', 'Maya Lindqvist', 'approved for release', `Page 1 of ${pages}`, 'Audit summary']) {
       expect(text).toContain(s);
     }
+    // round numbers only: no axis tick or limit with binary noise (5.016666666666667)
+    expect(text).not.toMatch(/\d\.\d{6,}/);
+    // the samples row says how many and in what, once
+    const samples = text.split('\n').find((l) => /^\s*Samples\s/.test(l))!;
+    expect(samples).toMatch(/\d+ samples/);
+    expect(samples.match(/ g\b/g)?.length ?? 0).toBeLessThanOrEqual(1);
+    // a chart per condition: months for storage, cycles for freeze-thaw
+    expect(text).toContain('Months');
     execFileSync('pdftoppm', ['-png', '-r', '50', '-f', '1', '-l', '2', file, join(dir, 'page')]);
     expect(readdirSync(dir).filter((f) => f.endsWith('.png'))).toHaveLength(2);
   });

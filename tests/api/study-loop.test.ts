@@ -140,6 +140,32 @@ describe('one initial test per batch', () => {
   });
 });
 
+describe('colour difference from the initial test, per sample', () => {
+  it('every replicate keeps its own readings, each measured from its batch\'s initial test (CIEDE2000, Sharma 2005 formula via culori)', async () => {
+    const plan = planFor(cat, addDays(today(), -7));
+    plan.samplesPerCell = 2;
+    plan.conditions = [plan.conditions[1]] as never; // the 45 °C oven alone
+    plan.attributes = ['color_l', 'color_a', 'color_b'].map((code) => ({ attributeId: cat.attributeIds[code], criterion: { kind: 'none' } })) as never;
+    const s = await started(plan);
+    const lab = (L: number, a: number, b: number) => [
+      { studyAttributeId: attr(s, 'color_l'), value: L },
+      { studyAttributeId: attr(s, 'color_a'), value: a },
+      { studyAttributeId: attr(s, 'color_b'), value: b },
+    ];
+    for (const r of s.samples.filter((x) => x.studyConditionId == null)) expect((await put(technician, r.code, initial(s).id, lab(50, 2.6772, -79.7751))).status).toBe(200);
+    const oven = s.samples.filter((x) => x.studyConditionId != null && x.batchId === cat.batchIds[0]);
+    expect(oven).toHaveLength(2);
+    // The first Sharma, Wu & Dalal 2005 pair: ΔE00 = 2.0425 from (50, 2.6772, -79.7751) to (50, 0, -82.7485).
+    for (const o of oven) expect((await put(technician, o.code, pull(s, 'accelerated', 'Week 1').id, lab(50, 0, -82.7485))).status).toBe(200);
+    const a = (await formulator.get(`/api/studies/${s.id}/analysis`)).body.analysis;
+    for (const o of oven) {
+      const de = a.deltaE.find((x: { sampleCode: string }) => x.sampleCode === o.code);
+      expect(de.points.map((p: { label: string }) => p.label)).toEqual(['Initial', 'Week 1']);
+      expect(de.points[1].de00).toBeCloseTo(2.0425, 4);
+    }
+  });
+});
+
 describe('a control read beside every pull', () => {
   it('pairs every pull with a same-day control reading, one serving every pull due that day, and extends the control to the last pull', async () => {
     const res = await formulator.post('/api/studies/preview', fourConditionPlan('2026-11-02'));

