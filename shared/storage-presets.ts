@@ -24,6 +24,7 @@ export interface StoragePreset {
 
 export const PRESET_KEYS = [
   'fridge-4',
+  'room',
   'ich-25-60',
   'ich-30-65',
   'ich-40-75',
@@ -45,6 +46,13 @@ export const STORAGE_PRESETS: readonly StoragePreset[] = [
     source: 'common',
     sourceNote: `${COMMON} The usual control against which odor and color are compared.`,
     input: { kind: 'constant', name: '4 °C control', preset: '4 °C control (refrigerator)', setpointC: 4, toleranceC: 2, isControl: true },
+  },
+  {
+    key: 'room',
+    label: 'Room temperature (shelf, about 20–25 °C)',
+    source: 'common',
+    sourceNote: `${COMMON} Samples on a shelf in the lab, away from sun and heaters, as a customer keeps the product; log the room to know what it saw.`,
+    input: { kind: 'constant', name: 'Room temperature shelf', preset: 'Room temperature 22 °C ± 3 °C (common practice)', setpointC: 22, toleranceC: 3 },
   },
   {
     key: 'ich-25-60',
@@ -147,11 +155,20 @@ export function presetByKey(key: string): StoragePreset | undefined {
   return STORAGE_PRESETS.find((p) => p.key === key);
 }
 
-/** Ovens at or above this temperature get the hot-surface caution, °C. */
-export const HOT_CAUTION_C = 40;
+/**
+ * Ovens at or above this temperature get the heat-resistant-gloves caution, °C. Common practice, no
+ * published source: a 40 °C climate cabinet is warm, not hot; from 45 °C ovens are handled with gloves.
+ */
+export const HOT_CAUTION_C = 45;
+/**
+ * At or below this temperature, °C, the cold caution speaks of cryogenic gloves and dry ice (a -80 °C
+ * freezer, dry ice at about -78.5 °C). Common practice, no published source; a -10 °C or -20 °C
+ * freezer gets only the frozen-surface caution.
+ */
+export const DEEP_COLD_C = -40;
 
 export interface Caution {
-  key: 'hot' | 'cold' | 'uv' | 'centrifuge';
+  key: 'hot' | 'cold' | 'deep_cold' | 'uv' | 'centrifuge';
   text: string;
 }
 
@@ -181,10 +198,15 @@ export function conditionCautions(c: CautionSubject): Caution[] {
       text: 'Hot surfaces and samples: use heat-resistant gloves when opening the oven or cabinet, and let containers cool before opening them.',
     });
   }
-  if (c.kind === 'cycling' || (coldest != null && coldest <= 0)) {
+  if (coldest != null && coldest <= DEEP_COLD_C) {
+    out.push({
+      key: 'deep_cold',
+      text: 'Very cold surfaces and samples, and dry ice, cause cold burns: wear insulated cryogenic gloves and eye protection. Dry ice gives off carbon dioxide: use it only with good ventilation, never in a sealed container or small closed room.',
+    });
+  } else if (coldest != null && coldest <= 0) {
     out.push({
       key: 'cold',
-      text: 'Cold surfaces, freezers and dry ice can cause cold burns: wear insulated gloves. Dry ice, if used, gives off carbon dioxide: use it only with good ventilation, never in a sealed container or small closed room.',
+      text: 'Frozen samples and freezer shelves: handle them with dry gloves, as wet skin can stick to frozen metal; let containers warm up closed so no water condenses inside.',
     });
   }
   if (c.kind === 'light' && c.lightSource === 'uv_cabinet') {

@@ -15,11 +15,34 @@
  */
 import { and, asc, eq, inArray, sql } from 'drizzle-orm';
 import type { Db } from './client';
-import { auditLog, checkpoints, decisions, observations, photos, samples, storageConditions, studies, studyAttributes, studyConditions } from './schema';
+import type { LogSummary } from '../../shared/schemas/storage';
+import { accumulatorOptions } from '../services/chamber-logs';
+import { backfillRollups } from '../services/chamber-rollups';
+import { ensureStarterAttributes } from '../services/labs';
+import { auditLog, chamberLogs, checkpoints, decisions, labs, observations, photos, samples, storageConditions, studies, studyAttributes, studyConditions } from './schema';
 
 export async function runDataMigrations(db: Db): Promise<void> {
   await initialTestPerBatch(db);
   await stripDraftDayZero(db);
+  await chamberRollups(db);
+  await starterAttributes(db);
+}
+
+/** Attributes added to the starter set since a lab was made (migration 0011: checks for balms, scrubs and washes). */
+async function starterAttributes(db: Db): Promise<void> {
+  for (const lab of await db.select({ id: labs.id }).from(labs)) await ensureStarterAttributes(db, lab.id);
+}
+
+/** Hourly roll-ups (migration 0008) for chamber logs stored before them; one transaction per log. */
+async function chamberRollups(db: Db): Promise<void> {
+  const logs = await db
+    .select({ id: chamberLogs.id, labId: chamberLogs.labId, summary: chamberLogs.summary })
+    .from(chamberLogs)
+    .where(and(sql`${chamberLogs.readingCount} > 0`, sql`NOT EXISTS (SELECT 1 FROM chamber_rollups r WHERE r.log_id = ${chamberLogs.id})`));
+  for (const log of logs) {
+    const band = (log.summary as LogSummary | null)?.band;
+    if (band) await backfillRollups(db, log, accumulatorOptions(band));
+  }
 }
 
 async function initialTestPerBatch(db: Db): Promise<void> {

@@ -6,6 +6,7 @@ import bcrypt from 'bcryptjs';
 import { sql } from 'drizzle-orm';
 import type { Db } from '../db/client';
 import { labs, users } from '../db/schema';
+import { folderStore, type FileStore } from '../files';
 import { audit } from '../services/audit';
 import { ensureStarterAttributes } from '../services/labs';
 import { DEMO_LABS, DEMO_PASSWORD } from './people';
@@ -35,7 +36,8 @@ export interface SeedOptions {
    * three running studies with observations and generated photos.
    */
   content?: 'people' | 'full';
-  /** Where generated demo photos go (full content only). */
+  /** Where generated demo photos go (full content only): the store, or else a folder (default .data/uploads). */
+  files?: FileStore;
   uploadsDir?: string;
   now?: Date;
 }
@@ -68,7 +70,7 @@ export async function seedDemo(db: Db, opts: SeedOptions = {}): Promise<SeededLa
             { owner: byRole('owner'), formulator: byRole('formulator'), technician: byRole('technician') },
             catalogue,
             conditions,
-            opts.uploadsDir ?? '.data/uploads',
+            opts.files ?? folderStore(opts.uploadsDir ?? '.data/uploads'),
             opts.now,
           );
         }

@@ -7,12 +7,11 @@
 import { and, eq, inArray } from 'drizzle-orm';
 import sharp from 'sharp';
 import { randomBytes } from 'node:crypto';
-import { mkdir, writeFile } from 'node:fs/promises';
-import { join } from 'node:path';
 import { evaluate, type Criterion } from '../../shared/compute/criteria';
 import { addDays, localDateInZone, SCHEDULE_TEMPLATES, type Offset } from '../../shared/compute/schedule';
 import type { ConditionRole } from '../../shared/domain';
 import type { DbOrTx } from '../db/client';
+import { photoKey, type FileStore } from '../files';
 import {
   attributes,
   batches,
@@ -26,6 +25,7 @@ import {
   studies,
   studyAttributes,
   studyBatches,
+  studyResponsibles,
   studyConditions,
   submissions,
   variants,
@@ -110,6 +110,7 @@ async function createDemoStudy(tx: DbOrTx, labId: number, timeZone: string, peop
     .$returningId();
   const studyId = study.id;
   await tx.insert(studyBatches).values(spec.batchIds.map((batchId) => ({ studyId, batchId, labId })));
+  await tx.insert(studyResponsibles).values({ studyId, userId: spec.responsibleId, labId, position: 0 });
 
   const condRows = await tx
     .select()
@@ -328,7 +329,7 @@ export async function seedStudies(
   people: DemoPeople,
   catalogue: { products: { handCream: number; bodyButter: number }; variants: { handCreamA: number }; batches: number[] },
   conditions: Record<string, number>,
-  uploadsDir: string,
+  files: FileStore,
   now = new Date(),
 ): Promise<number[]> {
   const today = localDateInZone(now, timeZone);
@@ -552,15 +553,13 @@ export async function seedStudies(
   });
 
   // Generated photos of the 45 °C jars at day 0, week 4 and week 8.
-  const dir = join(uploadsDir, 'photos');
-  await mkdir(dir, { recursive: true });
   for (const [i, p] of s1.photoTargets.entries()) {
     const img = await jarPhoto(p.separated, 100 + i);
     const meta = await sharp(img).metadata();
     const thumb = await sharp(img).resize({ width: 360 }).webp({ quality: 78 }).toBuffer();
     const base = randomBytes(16).toString('hex');
-    await writeFile(join(dir, `${base}.jpg`), img);
-    await writeFile(join(dir, `${base}.thumb.webp`), thumb);
+    await files.put(photoKey(`${base}.jpg`), img, { contentType: 'image/jpeg' });
+    await files.put(photoKey(`${base}.thumb.webp`), thumb, { contentType: 'image/webp' });
     await tx.insert(photos).values({
       labId,
       studyId: s1.studyId,

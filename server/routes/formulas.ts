@@ -4,12 +4,13 @@
  * another lab's ids answer 404 exactly like unknown ids. Every change writes one audit row in its
  * own transaction.
  */
-import { and, eq } from 'drizzle-orm';
+import { and, desc, eq } from 'drizzle-orm';
 import { Router } from 'express';
 import { batchFromContainers, diffVariants, formulaTotal } from '../../shared/compute/formula';
 import { ouncesToGrams } from '../../shared/compute/units';
 import {
   batchInput,
+  batchLotsInput,
   ingredientInput,
   ingredientPatch,
   productInput,
@@ -30,7 +31,7 @@ import {
 import { requireRole } from '../auth/guards';
 import { member } from '../auth/session-user';
 import type { Db, DbOrTx } from '../db/client';
-import { batches, ingredients, products, users, variants } from '../db/schema';
+import { batches, ingredients, products, studies, studyBatches, users, variants } from '../db/schema';
 import { HttpError, conflict, idParam, notFound, parse, unprocessable } from '../http/errors';
 import { audit } from '../services/audit';
 import {
@@ -423,12 +424,38 @@ export function formulaRoutes(db: Db): Router {
     res.json(await batchDetail(db, me.labId, idParam(req.params.id)));
   });
 
+  /** Records the raw-material lot and supplier of each line of the batch's formula (replaces the list; audited). */
+  r.put('/batches/:id/lots', write, async (req, res) => {
+    const me = member(req);
+    const id = idParam(req.params.id);
+    const { lots } = parse(batchLotsInput, req.body);
+    await db.transaction(async (tx) => {
+      const [row] = await tx
+        .select({ snapshot: batches.formulaSnapshot, lots: batches.materialLots })
+        .from(batches)
+        .where(and(eq(batches.labId, me.labId), eq(batches.id, id)))
+        .for('update');
+      if (!row) throw notFound('No such batch in your lab');
+      const positions = new Set((fromJson<FormulaSnapshot>(row.snapshot)?.lines ?? []).map((l) => l.position));
+      const fields: Record<string, string> = {};
+      lots.forEach((l, i) => {
+        if (!positions.has(l.position)) fields[`lots.${i}.position`] = 'No such line in this batch’s formula';
+        else if (lots.findIndex((x) => x.position === l.position) !== i) fields[`lots.${i}.position`] = 'Listed twice';
+      });
+      if (Object.keys(fields).length) throw new HttpError(400, 'validation', `Invalid body: check ${Object.keys(fields).join(', ')}`, fields);
+      const kept = lots.filter((l) => l.lot || l.supplier).sort((a, b) => a.position - b.position);
+      await tx.update(batches).set({ materialLots: kept }).where(eq(batches.id, id));
+      await audit(tx, { labId: me.labId, userId: me.id, action: 'update', entity: 'batch', entityId: id, oldValue: { materialLots: row.lots ?? [] }, newValue: { materialLots: kept } });
+    });
+    res.json(await batchDetail(db, me.labId, id));
+  });
+
   return r;
 }
 
 async function batchDetail(db: DbOrTx, labId: number, id: number): Promise<BatchDetail> {
   const [row] = await db
-    .select({ ...batchColumns, snapshot: batches.formulaSnapshot, createdBy: users.name })
+    .select({ ...batchColumns, snapshot: batches.formulaSnapshot, lots: batches.materialLots, createdBy: users.name })
     .from(batches)
     .innerJoin(variants, eq(variants.id, batches.variantId))
     .innerJoin(products, eq(products.id, variants.productId))
@@ -441,10 +468,18 @@ async function batchDetail(db: DbOrTx, labId: number, id: number): Promise<Batch
   if (!Array.isArray(snapshot?.lines)) throw conflict('No formula snapshot was recorded for this lot, so its formula cannot be shown');
   const batch = { ...toBatch(row), createdBy: row.createdBy };
   const current = await loadLines(db, labId, row.variantId);
+  const used = await db
+    .select({ id: studies.id, title: studies.title, status: studies.status, startDate: studies.startDate })
+    .from(studyBatches)
+    .innerJoin(studies, eq(studies.id, studyBatches.studyId))
+    .where(and(eq(studyBatches.labId, labId), eq(studyBatches.batchId, id)))
+    .orderBy(desc(studies.startDate), desc(studies.id));
   return {
     batch,
     snapshot,
     scaled: scaleLines(snapshot.lines, batch.sizeGrams),
     variantChangedSince: linesDiffer(current, snapshot.lines),
+    lots: fromJson<{ position: number; lot: string; supplier: string }[]>(row.lots) ?? [],
+    studies: used.map((s) => ({ ...s, startDate: String(s.startDate).slice(0, 10) })),
   };
 }

@@ -1,4 +1,3 @@
-import { join } from 'node:path';
 import { and, desc, eq, gte, lt, sql } from 'drizzle-orm';
 import { Router, type RequestHandler } from 'express';
 import multer from 'multer';
@@ -10,6 +9,8 @@ import { member } from '../auth/session-user';
 import type { Db } from '../db/client';
 import { auditLog, checkpoints, photos, samples, users } from '../db/schema';
 import { HttpError, idParam, notFound, parse } from '../http/errors';
+import { FileMissing, photoKey, sendStream, type FileStore } from '../files';
+import { describeAuditRows, type AuditWords, type LabFormat } from '../services/audit-text';
 import { planImport, previewOf, runImport } from '../services/import';
 import { attachmentHeader, checkImages, ensureDisplayCopy, PHOTO_LIMITS, photosFor, savePhotos } from '../services/photos';
 import { checkpointOpen, correctObservation, observationHistory, recordObservations, recordSheet, sampleAtCheckpoint, voidObservation, type Recorder } from '../services/records';
@@ -46,9 +47,8 @@ function upload(field: string, opts: { maxFiles: number; fileSize: number }): Re
 }
 
 /** Mounted at /api: recording, corrections, photos, bulk import and the audit trail. */
-export function recordRoutes(db: Db, uploadsDir: string): Router {
+export function recordRoutes(db: Db, fileStore: FileStore): Router {
   const r = Router();
-  const photoDir = join(uploadsDir, 'photos');
 
   r.get('/samples/:code/checkpoints/:checkpointId', requireMember, async (req, res) => {
     const me = member(req);
@@ -107,7 +107,7 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
       const files = (req.files as Express.Multer.File[] | undefined) ?? [];
       if (!files.length) throw new HttpError(400, 'validation', 'Choose at least one photo', { photos: 'No photo chosen' });
       const checked = await checkImages(files);
-      await savePhotos(db, photoDir, me, { studyId: sample.studyId, sampleId: sample.id, checkpointId, sampleCode: sample.code, checkpointLabel: cp.cp.label }, checked);
+      await savePhotos(db, fileStore, me, { studyId: sample.studyId, sampleId: sample.id, checkpointId, sampleCode: sample.code, checkpointLabel: cp.cp.label }, checked);
       res.status(201).json({ photos: await photosFor(db, me.labId, { sampleId: sample.id, checkpointId }) });
     },
   );
@@ -120,30 +120,23 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
     const me = member(req);
     const [p] = await db.select().from(photos).where(and(eq(photos.labId, me.labId), eq(photos.id, idParam(req.params.id))));
     if (!p) throw notFound('No such photo in your lab');
-    let file = which === 'thumb' ? p.thumbName : p.storedName;
-    if (which === 'display') {
-      try {
-        file = await ensureDisplayCopy(photoDir, p.storedName);
-      } catch (err) {
-        if ((err as NodeJS.ErrnoException).code === 'ENOENT') throw notFound('The photo file is missing from storage');
-        throw err;
-      }
+    let stored;
+    try {
+      const key = which === 'display' ? await ensureDisplayCopy(fileStore, p.storedName) : photoKey(which === 'thumb' ? p.thumbName : p.storedName);
+      stored = await fileStore.get(key);
+    } catch (err) {
+      if (err instanceof FileMissing) throw notFound('The photo file is missing from storage');
+      throw err;
     }
     const type = which === 'original' ? p.mime : 'image/webp';
     res.set({
       'Content-Type': type,
+      'Content-Length': String(stored.size),
       'Content-Disposition': which === 'original' ? attachmentHeader(p.originalName, p.mime) : 'inline',
       'Content-Security-Policy': "default-src 'none'; sandbox",
       'Cache-Control': 'private, max-age=86400',
     });
-    // `root` so that only the stored name is checked for dot segments: the data folder itself is '.data' by default.
-    res.sendFile(file, { root: photoDir, headers: { 'Content-Type': type } }, (err) => {
-      if (!err) return;
-      if (res.headersSent) return void res.end();
-      res.removeHeader('Content-Disposition');
-      res.removeHeader('Content-Security-Policy');
-      res.status(404).json({ error: { code: 'not_found', message: 'The photo file is missing from storage' } });
-    });
+    await sendStream(res, stored.body);
   };
   r.get('/photos/:id', requireMember, servePhoto('display'));
   r.get('/photos/:id/thumb', requireMember, servePhoto('thumb'));
@@ -178,7 +171,7 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
   });
 
   // ---------------------------------------------------------------- audit trail (owners)
-  const auditRows = async (labId: number, q: ReturnType<typeof auditQuery.parse>, limit: number, offset: number) => {
+  const auditRows = async (labId: number, lab: LabFormat, q: ReturnType<typeof auditQuery.parse>, limit: number, offset: number) => {
     const conds = [eq(auditLog.labId, labId)];
     if (q.studyId) conds.push(eq(auditLog.studyId, q.studyId));
     if (q.userId) conds.push(eq(auditLog.userId, q.userId));
@@ -192,7 +185,10 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
       .orderBy(desc(auditLog.at), desc(auditLog.id))
       .limit(limit)
       .offset(offset);
-    return rows.map(({ a, user }): AuditRow => ({
+    // Sentences with their names looked up per 1000 rows (a page is 100; the CSV takes them all).
+    const words: AuditWords[] = [];
+    for (let i = 0; i < rows.length; i += 1000) words.push(...(await describeAuditRows(db, labId, lab, rows.slice(i, i + 1000).map((r) => r.a))));
+    return rows.map(({ a, user }, i): AuditRow => ({
       id: a.id,
       at: a.at.toISOString(),
       user,
@@ -202,6 +198,8 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
       oldValue: a.oldValue,
       newValue: a.newValue,
       reason: a.reason,
+      actionLabel: words[i].actionLabel,
+      sentence: words[i].sentence,
     }));
   };
 
@@ -220,17 +218,18 @@ export function recordRoutes(db: Db, uploadsDir: string): Router {
     const me = member(req);
     const q = await auditQueryOf(req.query, me.labId);
     const pageSize = 100;
-    const rows = await auditRows(me.labId, q, pageSize + 1, (q.page - 1) * pageSize);
+    const rows = await auditRows(me.labId, me.lab, q, pageSize + 1, (q.page - 1) * pageSize);
     res.json({ rows: rows.slice(0, pageSize), page: q.page, more: rows.length > pageSize });
   });
 
   r.get('/audit.csv', requireRole('owner'), async (req, res) => {
     const me = member(req);
     const q = await auditQueryOf(req.query, me.labId);
-    const rows = await auditRows(me.labId, q, 100_000, 0);
+    const rows = await auditRows(me.labId, me.lab, q, 100_000, 0);
     res.set({ 'Content-Type': 'text/csv; charset=utf-8', 'Content-Disposition': 'attachment; filename="audit-trail.csv"' });
-    res.write('time_utc,who,action,entity,entity_id,old_value,new_value,reason\r\n');
-    for (const r of rows) res.write(csvLine([r.at, r.user, r.action, r.entity, r.entityId, r.oldValue, r.newValue, r.reason]));
+    // The raw columns as stored, then the entry in words.
+    res.write('time_utc,who,action,entity,entity_id,old_value,new_value,reason,action_label,sentence\r\n');
+    for (const r of rows) res.write(csvLine([r.at, r.user, r.action, r.entity, r.entityId, r.oldValue, r.newValue, r.reason, r.actionLabel, r.sentence]));
     res.end();
   });
 

@@ -8,6 +8,7 @@ import {
   attributeInput,
   benchQuery,
   missedInput,
+  sampleCodeParams,
   studyPlanInput,
 } from '../../shared/schemas/studies';
 import { requireMember, requireRole } from '../auth/guards';
@@ -26,9 +27,8 @@ import { conflict, idParam, notFound, parse } from '../http/errors';
 import { audit } from '../services/audit';
 import { findProduct } from '../services/formulas';
 import { analyzeStudy } from '../services/analysis';
-import { labelSheet, samplePage } from '../services/study/samples';
+import { labelSheet, sampleDue, samplePage } from '../services/study/samples';
 import { attributeView } from '../services/records';
-import { labs } from '../db/schema';
 import {
   amendStudy,
   bench,
@@ -237,20 +237,27 @@ export function studyRoutes(db: Db): Router {
   r.get('/bench', requireMember, async (req, res) => {
     const me = member(req);
     const q = parse(benchQuery, req.query, 'query');
-    res.json(await bench(db, me.labId, q.today ?? todayIn(me.lab.timeZone), q.days));
+    res.json(await bench(db, me.labId, q.today ?? todayIn(me.lab.timeZone), q.days, me.id));
   });
 
   r.get('/studies/:id/analysis', formulator, async (req, res) => {
     const me = member(req);
-    const [lab] = await db.select({ q10: labs.q10 }).from(labs).where(eq(labs.id, me.labId));
     const q = parse(z.strictObject({ q10: z.coerce.number().gt(0, 'Q10 must be more than 0').max(10, 'Q10 above 10 is not plausible').optional() }), req.query, 'query');
-    res.json({ analysis: await analyzeStudy(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone), q.q10 ?? lab.q10) });
+    // Without ?q10 the lab's own setting, read with the study.
+    res.json({ analysis: await analyzeStudy(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone), q.q10) });
   });
 
   // ---------------------------------------------------------------- labels and samples
   r.get('/studies/:id/labels', requireMember, async (req, res) => {
     const me = member(req);
     res.json(await labelSheet(db, me.labId, idParam(req.params.id), `${req.protocol}://${req.get('host')}`));
+  });
+
+  // What a scanned or typed code opens at the bench (its due checkpoint); unknown and another lab's: 404.
+  r.get('/samples/:code/due', requireMember, async (req, res) => {
+    const me = member(req);
+    const { code } = parse(sampleCodeParams, { code: req.params.code }, 'path');
+    res.json({ due: await sampleDue(db, me.labId, code, todayIn(me.lab.timeZone)) });
   });
 
   r.get('/samples/:code', requireMember, async (req, res) => {

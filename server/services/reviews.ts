@@ -352,10 +352,14 @@ export async function reviewOf(db: Db, labId: number, studyId: number) {
   ]);
   const investigations = await investigationsOf(db, labId, { studyId });
   const supersededBy = new Map(all.filter((d) => d.supersedesId).map((d) => [d.supersedesId!, d.id]));
+  // Decisions are numbered within the study, 1 for the first signed (ids count across every lab).
+  const numberOf = new Map([...all].sort((a, b) => a.id - b.id).map((d, i) => [d.id, i + 1]));
   const view = (d: (typeof all)[number]): DecisionView => {
     const v = vs.find((x) => x.id === d.variantId);
     return {
       id: d.id,
+      no: numberOf.get(d.id)!,
+      supersedesNo: d.supersedesId != null ? (numberOf.get(d.supersedesId) ?? null) : null,
       variantId: d.variantId,
       variant: v ? `${v.code} · ${v.name}` : String(d.variantId),
       outcome: d.outcome,

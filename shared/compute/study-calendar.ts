@@ -161,3 +161,75 @@ export function readingCounts<K>(calendar: StudyCalendar<K>, conditionKinds: Rea
   const perConditionDayZero = withDayZero * perSet;
   return { initial, pulls, addedControl, total: initial + pulls, perConditionDayZero, saved: Math.max(0, perConditionDayZero - initial) };
 }
+
+/** Nominal length of an offset unit in days, to compare gaps between pulls (a month as 365.25 / 12 days). */
+function nominalDays(o: Offset, cycleHours?: number): number {
+  switch (o.unit) {
+    case 'day':
+      return o.n;
+    case 'week':
+      return 7 * o.n;
+    case 'month':
+      return (o.n * 365.25) / 12;
+    case 'cycle':
+      return (o.n * (cycleHours ?? 24)) / 24;
+  }
+}
+
+function median(xs: number[]): number {
+  const s = [...xs].sort((a, b) => a - b);
+  const mid = Math.floor(s.length / 2);
+  return s.length % 2 ? s[mid] : (s[mid - 1] + s[mid]) / 2;
+}
+
+/** "8 weeks", "9 months", "12 days": a gap in the unit both ends share, else in days. */
+function gapText(a: Offset | null, b: Offset, days: number): string {
+  const unit = a == null || a.unit === b.unit ? b.unit : 'day';
+  const n = unit === b.unit ? b.n - (a?.n ?? 0) : Math.round(days);
+  const word = unit === 'cycle' ? 'cycle' : unit;
+  return `${n} ${word}${n === 1 ? '' : 's'}`;
+}
+
+/** The interval in the unit every offset of the condition shares ("2 weeks"), else in days. */
+function intervalText(c: GapCondition, days: number): string {
+  const unit = c.offsets.every((o) => o.unit === c.offsets[0].unit) ? c.offsets[0].unit : 'day';
+  const n = Math.round((days / nominalDays({ unit, n: 1 } as Offset, c.cycleHours)) * 10) / 10;
+  return `${n} ${unit}${n === 1 ? '' : 's'}`;
+}
+
+export interface GapCondition {
+  name: string;
+  offsets: readonly Offset[];
+  cycleHours?: number;
+}
+
+/**
+ * Warns about a condition left without a pull for over twice its interval. The interval is the
+ * median gap between consecutive pulls of that condition, counted from the initial test; a gap warns
+ * when it is over twice that median and over twice the gap before it (a schedule that widens step by
+ * step, such as ICH Q1A(R2) 2.2.7's every 3 months in the first year, every 6 in the second and
+ * annually after, is planned that way). Gaps are compared in nominal days of the offsets (a month is
+ * 365.25 / 12 days), so calendar month lengths do not tip the balance. Common practice, no published
+ * source. Needs at least three gaps.
+ */
+export function pullGapWarnings(conditions: readonly GapCondition[]): string[] {
+  const out: string[] = [];
+  for (const c of conditions) {
+    const points = [...c.offsets]
+      .map((o) => ({ o, d: nominalDays(o, c.cycleHours) }))
+      .filter((p) => p.d > 0)
+      .sort((a, b) => a.d - b.d);
+    const gaps = points.map((p, i) => ({ from: i ? points[i - 1].o : null, to: p.o, days: p.d - (i ? points[i - 1].d : 0) }));
+    if (gaps.length < 3) continue;
+    const interval = median(gaps.map((g) => g.days));
+    const wide = gaps.filter((g, i) => i > 0 && g.days > 2 * interval + 1e-9 && g.days > 2 * gaps[i - 1].days + 1e-9);
+    for (const g of wide) {
+      const from = g.from ? offsetLabel(g.from) : INITIAL_LABEL;
+      const usual = intervalText(c, interval);
+      out.push(
+        `${c.name}: no pull between ${from} and ${offsetLabel(g.to)} (${gapText(g.from, g.to, g.days)}), over twice its usual interval (${usual}, the median gap between its pulls). Add a pull in between, or keep the gap on purpose.`,
+      );
+    }
+  }
+  return out;
+}

@@ -47,6 +47,8 @@ export interface SuggestObservation {
   value?: number | null;
   /** Pass or fail against the acceptance criterion; null while not judged. */
   passed: boolean | null;
+  /** A reading of the study's initial test (t = 0 of every condition), not of a pull of this condition. */
+  initial?: boolean;
 }
 
 export interface SuggestAttribute {
@@ -111,6 +113,20 @@ const METHOD_NAMES: Readonly<Record<ReasonMethod, string>> = {
 /** How a reason was reached, in words, the same on every page and in the PDF. */
 export function reasonMethodName(r: { method: ReasonMethod; gateOf?: 'control' | 'stress' }): string {
   return r.method === 'gate' && r.gateOf === 'control' ? 'Control (reference)' : (METHOD_NAMES[r.method] ?? r.method);
+}
+
+/**
+ * What the gate lines of one kind say together, only what is true: "no failures (45 °C oven)" for
+ * conditions with results and none failed, "no results yet (Freeze-thaw)" for those without any;
+ * null when there is no such line or one failed (the gates list says so).
+ */
+export function gateSummary(reasons: readonly SuggestReason[], of: 'stress' | 'control'): string | null {
+  const lines = reasons.filter((r) => r.method === 'gate' && (r.gateOf === 'control') === (of === 'control'));
+  if (!lines.length || lines.some((r) => r.attribute !== 'all attributes')) return null;
+  const checked = lines.filter((r) => r.dataPoints > 0).map((r) => r.condition);
+  const waiting = lines.filter((r) => r.dataPoints === 0).map((r) => r.condition);
+  const parts = [checked.length ? `no failures (${checked.join(', ')})` : '', waiting.length ? `no results yet (${waiting.join(', ')})` : ''].filter(Boolean);
+  return `${of === 'control' ? 'Control' : 'Stress tests'}: ${parts.join('; ')}.`;
 }
 
 export interface SuggestReason {
@@ -217,8 +233,10 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
     if (isGate) {
       const rule = c.role === 'control' ? CONTROL_RULE : GATE_RULE;
       const gateOf = c.role === 'control' ? ('control' as const) : ('stress' as const);
-      const failed = c.attributes.filter((a) => judged(a.observations).some((o) => o.passed === false));
-      const n = c.attributes.reduce((s, a) => s + judged(a.observations).length, 0);
+      // A gate judges the condition's own pulls: the initial test is no result of a stress test or the control.
+      const own = (a: SuggestAttribute) => judged(a.observations).filter((o) => !o.initial);
+      const failed = c.attributes.filter((a) => own(a).some((o) => o.passed === false));
+      const n = c.attributes.reduce((s, a) => s + own(a).length, 0);
       if (failed.length > 0) {
         const { outcome, instruction } = defaultGate(c);
         const names = failed.map((a) => a.name);
@@ -377,7 +395,11 @@ export function suggestShelfLife(input: SuggestInput): SuggestResult {
   const storageInstructions = [...new Set(gates.filter((g) => g.instruction).map((g) => g.instruction as string))];
   let confidenceNote: string;
   if (basis === 'none') {
-    confidenceNote = 'No figure yet: record more checkpoints (at least 3 results at 2 or more times at real time, or an accelerated condition).';
+    const anyResult = conditions.some((c) => c.attributes.some((a) => judged(a.observations).length > 0));
+    // Shown after the basis label "No figure yet", so it does not repeat it.
+    confidenceNote = anyResult
+      ? 'Record more checkpoints: at least 3 results at 2 or more times at real time, or an accelerated condition.'
+      : 'No results yet: record the initial test and the first pulls.';
   } else if (basis === 'projection_only') {
     confidenceNote = 'From a rule of thumb, not a prediction: verify with real-time data.';
   } else {

@@ -5,7 +5,7 @@
  */
 import { z } from 'zod';
 import { calendarDate, text } from './common';
-import { INGREDIENT_FUNCTIONS, PRODUCT_TYPES, type IngredientFunction, type ProductType } from '../domain';
+import { INGREDIENT_FUNCTIONS, PRODUCT_TYPES, type IngredientFunction, type ProductType, type StudyStatus } from '../domain';
 import { roundTo } from '../compute/units';
 import type { DiffStatus, FormulaTotal, RangeWarning } from '../compute/formula';
 
@@ -148,11 +148,11 @@ function totalParts(t: FormulaTotal): { total: string; miss: string; side: 'shor
   return { total: roundTo(t.total, places).toFixed(places), miss: roundTo(miss, places).toFixed(places), side: t.missBy < 0 ? 'short' : 'over' };
 }
 
-/** "Total 100.00 %", "99.50 % - 0.50 % short", "100.20 % - 0.20 % over". */
+/** "Total 100.00 %", "Total 99.50 %: 0.50 % to go", "Total 100.20 %: 0.20 % over" (no minus sign that reads as a subtraction). */
 export function totalLabel(t: FormulaTotal): string {
   if (t.ok) return `Total ${roundTo(t.total, 2).toFixed(2)} %`;
   const p = totalParts(t);
-  return `${p.total} % - ${p.miss} % ${p.side}`;
+  return `Total ${p.total} %: ${p.miss} % ${p.side === 'short' ? 'to go' : 'over'}`;
 }
 
 /** The server's refusal: "Lines total 99.50 %: 0.50 % short of 100 %". */
@@ -237,6 +237,16 @@ export const batchInput = z
     if (v.fillAmount == null && v.fillUnit != null) ctx.addIssue({ code: 'custom', path: ['fillAmount'], message: 'Enter the fill amount' });
   });
 export type BatchInput = z.input<typeof batchInput>;
+
+/** A line's raw-material lot and supplier, by the line's position in the batch's formula snapshot. */
+export const materialLot = z.strictObject({
+  position: z.number().int('Must be a whole number').min(1, 'No such line').max(1000, 'No such line'),
+  lot: text().trim().max(60, 'At most 60 characters'),
+  supplier: text().trim().max(120, 'At most 120 characters'),
+});
+export type MaterialLot = z.infer<typeof materialLot>;
+/** Every line's lot and supplier at once; a line with neither is left out. */
+export const batchLotsInput = z.strictObject({ lots: z.array(materialLot).max(200, 'At most 200 lines') });
 
 // ---------------------------------------------------------------- responses
 
@@ -363,6 +373,10 @@ export interface BatchDetail {
   scaled: ScaleResult;
   /** True when the variant's lines differ from the snapshot now. */
   variantChangedSince: boolean;
+  /** Raw-material lot and supplier per snapshot line (by position); lines without either are absent. */
+  lots: MaterialLot[];
+  /** Studies that test this batch. */
+  studies: { id: number; title: string; status: StudyStatus; startDate: string }[];
 }
 
 export interface CompareRow {

@@ -90,6 +90,8 @@ export interface ReferenceValue {
   sampleCode?: string;
   /** A control value: read the same day as this pull (false: the latest earlier one, for a pull without a paired control reading). */
   sameDay?: boolean;
+  /** The baseline and the previous reading: the method details used then (pH neat or a dispersion, spindle and speed), offered again. */
+  method?: Record<string, string | number> | null;
 }
 
 export interface RecordAttribute {
@@ -211,4 +213,8 @@ export interface AuditRow {
   oldValue: unknown;
   newValue: unknown;
   reason: string | null;
+  /** The action in the audit vocabulary: "Signed", "Signature refused" (shared/audit-words.ts). */
+  actionLabel: string;
+  /** The entry in words, names and values as the screens show them (server/services/audit-text.ts). */
+  sentence: string;
 }

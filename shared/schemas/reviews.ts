@@ -56,6 +56,7 @@ export const decisionInput = z
     const releasing = d.outcome === 'released' || d.outcome === 'released_with_conditions';
     if (releasing && d.shelfLifeMonths == null) ctx.addIssue({ code: 'custom', path: ['shelfLifeMonths'], message: 'A release needs a shelf life' });
     if (d.outcome === 'released_with_conditions' && !d.conditionsText) ctx.addIssue({ code: 'custom', path: ['conditionsText'], message: 'Write the conditions of release' });
+    if (d.outcome === 'not_released' && !d.comment) ctx.addIssue({ code: 'custom', path: ['comment'], message: 'Say why the variant is not released' });
     if (d.outcome === 'continue_testing' && !d.newCheckpoints?.length) ctx.addIssue({ code: 'custom', path: ['newCheckpoints'], message: 'Add at least one checkpoint to continue testing' });
     if (d.supersedesId && !d.supersedeReason) ctx.addIssue({ code: 'custom', path: ['supersedeReason'], message: 'Say why this decision replaces the earlier one' });
   });
@@ -74,6 +75,10 @@ export function longerThanSuggested(d: { outcome: DecisionOutcome | null; shelfL
 
 export interface DecisionView {
   id: number;
+  /** Its number within the study: 1 for the first decision signed on it. */
+  no: number;
+  /** The number within the study of the decision it replaces. */
+  supersedesNo: number | null;
   variantId: number;
   variant: string;
   outcome: DecisionOutcome;

@@ -117,6 +117,11 @@ export type ConditionActiveInput = z.input<typeof conditionActiveInput>;
 export const chamberLogUploadFields = z.strictObject({
   unit: z.enum(['C', 'F'], { error: 'Choose °C or °F' }).optional(),
   dateOrder: z.enum(['DMY', 'MDY'], { error: 'Choose DD/MM/YYYY (DMY) or MM/DD/YYYY (MDY)' }).optional(),
+  /** Made by the client once per file: sending the same upload again returns the log it already made. */
+  importId: z
+    .string()
+    .regex(/^[A-Za-z0-9-]{8,36}$/, { error: '8 to 36 letters, digits or dashes (a UUID)' })
+    .optional(),
 });
 export type ChamberLogUploadFields = z.infer<typeof chamberLogUploadFields>;
 

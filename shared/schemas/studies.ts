@@ -151,7 +151,10 @@ export const studyPlanInput = z.strictObject({
   samplesPerCell: z.number().int().min(1, 'At least 1').max(20, 'At most 20').default(1),
   containerDescription: text().trim().max(200, 'At most 200 characters').default(''),
   fillGrams: z.number().positive('Must be more than 0').max(100_000).nullable().optional(),
+  /** The main person responsible (kept for older clients); the first of `responsibleIds` when both are sent. */
   responsibleId: id.nullable().optional(),
+  /** Everyone responsible for the study, the main person first. */
+  responsibleIds: z.array(id).max(10, 'At most 10 people').optional(),
   notes: text().max(5000, 'At most 5000 characters').nullable().optional(),
 });
 export type StudyPlanInput = z.infer<typeof studyPlanInput>;
@@ -168,6 +171,15 @@ export type AmendmentInput = z.infer<typeof amendmentInput>;
 
 export const missedInput = z.strictObject({ reason });
 
+/** A sample code as printed on its label (4 to 12 letters and digits); lower case is read as upper. */
+export const sampleCodeParams = z.strictObject({
+  code: z
+    .string()
+    .trim()
+    .toUpperCase()
+    .regex(/^[0-9A-Z]{4,12}$/, 'A sample code is 4 to 12 letters and digits'),
+});
+
 export const benchQuery = z.strictObject({
   days: z.coerce.number().int().min(0).max(31).default(7),
   /** Lab-local date to look from (defaults to today in the lab's zone). */
@@ -183,6 +195,8 @@ export interface StudySummary {
   startDate: string;
   product: { id: number; name: string };
   responsible: { id: number; name: string } | null;
+  /** Everyone responsible, the main person first. */
+  responsibles: { id: number; name: string }[];
   batchCount: number;
   conditionCount: number;
   sampleCount: number;
@@ -304,7 +318,10 @@ export interface StudyDetail {
   status: StudyStatus;
   startDate: string;
   product: { id: number; name: string; type: string };
+  /** The main person responsible (the first of `responsibles`). */
   responsible: { id: number; name: string } | null;
+  /** Everyone responsible for the study, the main person first. */
+  responsibles: { id: number; name: string }[];
   samplesPerCell: number;
   containerDescription: string;
   fillGrams: number | null;
@@ -342,7 +359,8 @@ export interface BenchCheckpoint {
   windowStart: string;
   windowEnd: string;
   state: CheckpointState;
-  study: { id: number; title: string; product: string };
+  /** `mine`: the signed-in member is one of the study's responsible people. */
+  study: { id: number; title: string; product: string; mine: boolean };
   attributeCount: number;
   toRecord: number;
   samples: BenchSample[];
@@ -368,6 +386,13 @@ export interface BenchResponse {
   until: string;
   counts: { overdue: number; due: number; upcoming: number };
   groups: BenchGroup[];
+}
+
+/** GET /api/samples/:code/due: the checkpoint a scanned or typed code opens (null: nothing left to record). */
+export interface SampleDue {
+  code: string;
+  retained: boolean;
+  checkpoint: { id: number; label: string; dueDate: string; state: CheckpointState | 'cancelled'; complete: boolean } | null;
 }
 
 export interface LabelSheet {

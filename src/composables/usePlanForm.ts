@@ -57,7 +57,8 @@ export function usePlanForm(fieldErrors: Pick<ReturnType<typeof useFieldErrors>,
       samplesPerCell: 1,
       containerDescription: '',
       fillGrams: null as number | null,
-      responsibleId: null as number | null,
+      /** Everyone responsible, the main person first (sent as responsibleIds, the first also as responsibleId). */
+      responsibleIds: [] as number[],
       notes: '',
     };
   }
@@ -133,7 +134,7 @@ export function usePlanForm(fieldErrors: Pick<ReturnType<typeof useFieldErrors>,
           samplesPerCell: s.samplesPerCell,
           containerDescription: s.containerDescription,
           fillGrams: s.fillGrams,
-          responsibleId: s.responsible?.id ?? null,
+          responsibleIds: s.responsibles?.length ? s.responsibles.map((p) => p.id) : s.responsible ? [s.responsible.id] : [],
           notes: s.notes ?? '',
         });
         titleTouched.value = true;
@@ -268,7 +269,8 @@ export function usePlanForm(fieldErrors: Pick<ReturnType<typeof useFieldErrors>,
       samplesPerCell: form.samplesPerCell,
       containerDescription: form.containerDescription,
       fillGrams: form.fillGrams ?? null,
-      responsibleId: form.responsibleId ?? null,
+      responsibleId: form.responsibleIds[0] ?? null,
+      responsibleIds: [...form.responsibleIds],
       notes: form.notes.trim() ? form.notes : null,
     };
   }

@@ -4,7 +4,7 @@
  * same from sample to sample).
  */
 import { computed, type Ref } from 'vue';
-import type { RecordAttribute, RecordSheet, ReferenceValue } from '@shared/schemas/records';
+import type { RecordAttribute, RecordSheet } from '@shared/schemas/records';
 import { emptyEntry, entryHasContent, methodForInputs, type EntryDraft } from '@/components/record/format';
 import { draftKey, useDraft } from '@/composables/useDraft';
 import { useSessionStore } from '@/stores/session';
@@ -25,10 +25,13 @@ export function useRecordEntries(code: Ref<string>, checkpointId: Ref<number>) {
   const entries = computed(() => draft.data.value.entries);
   const methodKey = (studyAttributeId: number) => `${METHOD_PREFIX}${session.user?.lab.id ?? 0}:${studyAttributeId}`;
 
-  /** The method details of this sample's previous reading, else the last ones used for this attribute on this device. */
+  /**
+   * The method details of this sample's previous reading, else of its batch's initial test (the
+   * baseline), else the last ones used for this attribute on this device.
+   */
   function rememberedMethod(item: RecordAttribute): Record<string, string> {
-    const fromServer = (item.previous as (ReferenceValue & { method?: Record<string, string | number> | null }) | null)?.method;
-    if (fromServer) return methodForInputs(fromServer);
+    const fromServer = item.previous?.method ?? item.baseline?.method;
+    if (fromServer && Object.keys(fromServer).length) return methodForInputs(fromServer);
     try {
       const raw = localStorage.getItem(methodKey(item.studyAttributeId));
       return raw ? (JSON.parse(raw) as Record<string, string>) : {};

@@ -29,6 +29,7 @@ const routes: RouteRecordRaw[] = [
       { path: 'formulas/variants/:variantId', name: 'variant', component: () => import('@/views/formulas/VariantView.vue'), meta: { title: 'Variant', minRole: 'technician' } },
       { path: 'formulas/variants/:variantId/compare/:otherId', name: 'variant-compare', component: () => import('@/views/formulas/VariantCompareView.vue'), meta: { title: 'Compare variants', minRole: 'technician' } },
       { path: 'formulas/batches/:batchId', name: 'batch', component: () => import('@/views/formulas/BatchView.vue'), meta: { title: 'Batch', minRole: 'technician' } },
+      { path: 'formulas/batches/:batchId/sheet', name: 'batch-sheet', component: () => import('@/views/formulas/BatchSheetView.vue'), meta: { title: 'Batch sheet', minRole: 'technician' } },
       { path: 'storage', name: 'storage', component: () => import('@/views/StorageView.vue'), meta: { title: 'Storage', minRole: 'technician' } },
       { path: 'storage/conditions/:conditionId', name: 'condition', component: () => import('@/views/storage/ConditionView.vue'), meta: { title: 'Storage condition', minRole: 'technician' } },
       { path: 'storage/logs/:logId', name: 'chamber-log', component: () => import('@/views/storage/ChamberLogView.vue'), meta: { title: 'Chamber log', minRole: 'technician' } },

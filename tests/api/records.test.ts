@@ -107,7 +107,8 @@ describe('recording a checkpoint', () => {
     expect(byCode.odor.verdict).toBe('fail'); // marked, worst allowed slight
     expect(byCode.pack_integrity.verdict).toBe('fail');
     expect(byCode.mass.verdict).toBe('fail'); // above 60
-    expect(res.body.sheet.attributes[0].baseline).toEqual({ value: 5.3, label: 'Initial', sampleCode: retained(study, 0).code });
+    // With the method used then (pH neat), offered again at this pull.
+    expect(res.body.sheet.attributes[0].baseline).toEqual({ value: 5.3, label: 'Initial', sampleCode: retained(study, 0).code, method: { method: 'neat' } });
     expect(res.body.sheet.attributes[0].previous).toBeNull(); // this jar's first pull
     // The walk through the checkpoint's samples: this one is complete, the next is not yet.
     const s2 = sampleIn(study, 1, 1);
@@ -305,7 +306,7 @@ describe('the audit trail is append-only for the app account', () => {
     expect(byPerson.body.rows.length).toBeGreaterThan(0);
     const csv = await owner.get(`/api/audit.csv?studyId=${study.id}`);
     expect(csv.headers['content-type']).toMatch(/text\/csv/);
-    expect(csv.text.split('\r\n')[0]).toBe('time_utc,who,action,entity,entity_id,old_value,new_value,reason');
+    expect(csv.text.split('\r\n')[0]).toBe('time_utc,who,action,entity,entity_id,old_value,new_value,reason,action_label,sentence');
     expect((await formulator.get('/api/audit')).status).toBe(403);
     expect((await technician.get('/api/audit.csv')).status).toBe(403);
     expect((await otherOwner.get(`/api/audit?studyId=${study.id}`)).status).toBe(404); // another lab's study, as everywhere

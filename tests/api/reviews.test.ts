@@ -152,7 +152,7 @@ describe('signing decisions', () => {
     expect((await formulator.get(`/api/studies/${id}`)).body.study.status).toBe('decided');
     expect(decided.current[0].labelRule).toBe('period_after_opening'); // above 30 months
 
-    const again = await sign(owner, id, { variantId: variantIds[0], outcome: 'not_released' });
+    const again = await sign(owner, id, { variantId: variantIds[0], outcome: 'not_released', comment: 'Second thoughts' });
     expect(again.status).toBe(409);
     const sup = await sign(owner, id, {
       variantId: variantIds[0],

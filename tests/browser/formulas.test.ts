@@ -106,7 +106,7 @@ describe('formulas', () => {
       await page.getByTestId('line-percent').nth(i).fill(percent);
     }
     const total = page.getByTestId('formula-total');
-    await expect.poll(() => total.textContent()).toContain('99.50 % - 0.50 % short');
+    await expect.poll(() => total.textContent()).toContain('Total 99.50 %: 0.50 % to go');
     expect(await total.textContent()).toContain('Lines must total 100.00 %');
 
     // Saving is refused in the page, saying by how much the lines miss; nothing is sent.
@@ -133,13 +133,17 @@ describe('formulas', () => {
     await page.waitForTimeout(300);
     await page.screenshot({ path: join(SHOTS, 'formulas-variant-editor-desktop.png'), fullPage: true });
 
-    // Variant B: a copy of A, renamed in the prompt.
+    // Variant B: a copy of A, named in the derive dialog (code and name, what the copy takes).
     await page.getByTestId('derive').click();
-    const prompt = page.locator('.el-message-box');
-    await prompt.waitFor();
-    expect(await prompt.locator('input').inputValue()).toBe('5 % emulsifier (copy of A)');
-    await prompt.locator('input').fill('6 % emulsifier');
-    await prompt.getByRole('button', { name: 'Create copy' }).click();
+    const dialog = page.getByTestId('derive-dialog');
+    await dialog.waitFor();
+    expect(await dialog.textContent()).toContain('4 lines, Total 100.00 %');
+    expect(await input(page, 'derive-code').inputValue()).toBe('B');
+    expect(await input(page, 'derive-name').inputValue()).toBe('5 % emulsifier (copy of A)');
+    await input(page, 'derive-name').fill('6 % emulsifier');
+    await page.waitForTimeout(200);
+    await page.screenshot({ path: join(SHOTS, 'formulas-derive-dialog-desktop.png') });
+    await page.getByTestId('derive-save').click();
     await page.waitForURL((u) => /\/variants\/\d+$/.test(u.pathname) && !u.pathname.endsWith(`/${variantA}`));
     const variantB = idFrom(page.url(), /\/variants\/(\d+)$/);
     await expect.poll(() => page.getByTestId('variant-title').textContent()).toBe('6 % emulsifier');
@@ -149,10 +153,22 @@ describe('formulas', () => {
 
     // One more percent of emulsifier, one less of water.
     await page.getByTestId('line-percent').nth(2).fill('6');
-    await expect.poll(() => total.textContent()).toContain('101.00 % - 1.00 % over');
+    await expect.poll(() => total.textContent()).toContain('Total 101.00 %: 1.00 % over');
     await page.getByTestId('line-percent').nth(0).fill('75.5');
     await expect.poll(() => total.textContent()).toContain('Total 100.00 %');
     await saveVariant(page);
+
+    // An ingredient added to the library from a line's list goes into that line.
+    await page.getByTestId('add-line').click();
+    await page.getByTestId('line-ingredient').nth(4).click();
+    await page.getByTestId('line-add-ingredient').filter({ visible: true }).click();
+    await input(page, 'ingredient-trade').fill('Rose water test');
+    await input(page, 'ingredient-inci').fill('Rosa Damascena Flower Water');
+    await choose(page, page.getByTestId('ingredient-function'), 'Solvent');
+    await page.getByTestId('ingredient-save').click();
+    await expect.poll(() => page.getByTestId('line-row').nth(4).textContent()).toContain('Rosa Damascena Flower Water');
+    await page.getByTestId('line-remove').nth(4).click();
+    await expect.poll(() => page.locator('.unsaved').count()).toBe(0);
 
     // The product lists both, B derived from A, each totalling 100 %.
     await page.getByRole('navigation', { name: 'Breadcrumb' }).getByRole('link', { name: 'Almond body lotion' }).click();

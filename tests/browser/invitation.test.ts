@@ -94,12 +94,7 @@ describe('invitations in the browser', () => {
     await p2.screenshot({ path: join(SHOTS, 'accept-invitation-tablet.png') });
     await p2.getByTestId('password').fill('copper kettle by the window');
     await p2.getByTestId('accept').click();
-    await p2.getByTestId('joined').waitFor();
-    await p2.getByTestId('to-sign-in').click();
-    await p2.waitForURL(/\/sign-in/);
-    await p2.getByTestId('email').fill(address);
-    await p2.getByTestId('password').fill('copper kettle by the window');
-    await p2.getByTestId('sign-in').click();
+    // Signed in at once with the password just chosen: straight to the Bench, no second sign-in.
     await p2.waitForURL(/\/bench$/);
     const links = await p2.locator('nav[aria-label="Main"] a').allTextContents();
     expect(links.map((l) => l.trim())).toEqual(['Bench', 'Studies', 'Formulas', 'Storage']);

@@ -404,8 +404,8 @@ describe('the attribute library', () => {
 
     await page.getByTestId('add-attribute').click();
     const dialog = page.getByTestId('attribute-dialog');
-    await input(page, 'attr-name').fill('Crystals');
-    expect(await input(page, 'attr-code').inputValue()).toBe('crystals');
+    await input(page, 'attr-name').fill('Speckles');
+    expect(await input(page, 'attr-code').inputValue()).toBe('speckles');
     await page.getByTestId('attr-kind-graded').click();
     await input(page, 'attr-grade-1').fill('A few');
     // Grade 2 left without a label: the message sits beside it, nothing is sent.
@@ -418,15 +418,15 @@ describe('the attribute library', () => {
     await expect.poll(() => dialog.locator('.el-form-item__error').allTextContents()).toContain('Already in use');
     await page.waitForTimeout(300);
     await page.screenshot({ path: join(SHOTS, 'attribute-dialog-errors-desktop.png') });
-    await input(page, 'attr-code').fill('crystals');
+    await input(page, 'attr-code').fill('speckles');
     await page.getByTestId('attr-save').click();
-    const row = table.locator('.el-table__row').filter({ hasText: 'Crystals' });
+    const row = table.locator('.el-table__row').filter({ hasText: 'Speckles' });
     await row.waitFor();
     expect(await row.textContent()).toContain('Graded');
     expect(await row.textContent()).toContain('0 none · 1 A few · 2 Many, gritty');
     expect(await row.textContent()).not.toContain('Starter set');
 
-    await page.getByTestId('toggle-crystals').click();
+    await page.getByTestId('toggle-speckles').click();
     await expect.poll(() => row.count()).toBe(0); // inactive ones are hidden until asked for
     await page.getByText('Show inactive (1)').click();
     await expect.poll(() => row.textContent()).toContain('Inactive');

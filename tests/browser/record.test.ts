@@ -395,15 +395,20 @@ describe('Audit trail', () => {
     await page.getByTestId('nav-lab').click();
     await page.getByTestId('audit-link').click();
     await page.waitForURL(/\/lab\/audit$/);
-    await page.waitForSelector('[data-testid="audit-table"] .el-table__row');
+    await page.waitForSelector('[data-testid="audit-row"]');
 
     await quiet(page);
     await page.goto(`${rig.baseUrl}/lab/audit?studyId=${study.id}`);
-    await page.waitForSelector('[data-testid="audit-table"] .el-table__row');
-    const text = (await page.getByTestId('audit-table').textContent()) ?? '';
-    expect(text).toContain('Read the wrong meter display');
-    expect(text).toMatch(/value:\s*5\.45\s*→\s*5\.5/);
+    await page.waitForSelector('[data-testid="audit-row"]');
+    const text = (await page.getByTestId('audit-sentence').allTextContents()).join('\n') + (await page.getByTestId('audit-who').allTextContents()).join('\n');
+    // Each entry is a sentence: the correction with its old and new values (at the attribute's decimals) and the reason.
+    expect(text).toMatch(/Corrected pH for sample \w+ at .+ from 5\.45 \(.+?\) to 5\.50 \(.+?\)\. Reason: Read the wrong meter display\./);
+    expect(text).not.toMatch(/[{}]|\bnull\b|undefined/);
     expect(text).toContain('Priya Nair');
+    // The raw record is one click away.
+    const first = page.getByTestId('audit-raw').first();
+    await first.locator('summary').click();
+    await expect.poll(() => first.locator('pre').textContent()).toContain('"oldValue"');
     expect(await page.getByTestId('audit-csv').getAttribute('href')).toBe(`/api/audit.csv?studyId=${study.id}`);
     // The study filter shows the study's title.
     await expect.poll(() => page.getByTestId('audit-study').textContent()).toContain('Calendula cream, record at the bench');
@@ -411,19 +416,27 @@ describe('Audit trail', () => {
     const techId = rig.t.labs[0].members[DEMO.technician];
     await quiet(page);
     await page.goto(`${rig.baseUrl}/lab/audit?studyId=${study.id}&userId=${techId}&from=${addDays(today, -1)}&to=${today}`);
-    await page.waitForSelector('[data-testid="audit-table"] .el-table__row');
-    const who = await page.locator('[data-testid="audit-table"] .el-table__row td:nth-child(2)').allTextContents();
+    await page.waitForSelector('[data-testid="audit-row"]');
+    const who = await page.getByTestId('audit-who').allTextContents();
     expect(new Set(who.map((w) => w.trim()))).toEqual(new Set(['Priya Nair']));
     expect(await page.getByTestId('audit-csv').getAttribute('href')).toBe(`/api/audit.csv?studyId=${study.id}&userId=${techId}&from=${addDays(today, -1)}&to=${today}`);
     const csv = await page.evaluate(async (href) => (await fetch(href)).text(), (await page.getByTestId('audit-csv').getAttribute('href'))!);
-    expect(csv.split('\r\n')[0]).toBe('time_utc,who,action,entity,entity_id,old_value,new_value,reason');
+    expect(csv.split('\r\n')[0]).toBe('time_utc,who,action,entity,entity_id,old_value,new_value,reason,action_label,sentence');
     expect(csv).toContain('Read the wrong meter display');
 
     await quiet(page);
     await page.goto(`${rig.baseUrl}/lab/audit?studyId=${study.id}`);
-    await page.waitForSelector('[data-testid="audit-table"] .el-table__row');
+    await page.waitForSelector('[data-testid="audit-row"]');
     await settle(page);
     await page.screenshot({ path: join(SHOTS, 'audit-desktop.png'), fullPage: true });
+    // Tablet (1024 x 768) and phone (390 x 844), the first raw record open: nothing wider than the screen.
+    await page.getByTestId('audit-raw').first().locator('summary').click();
+    for (const [name, size] of [['tablet', { width: 1024, height: 768 }], ['phone', { width: 390, height: 844 }]] as const) {
+      await page.setViewportSize(size);
+      await settle(page);
+      expect(await page.evaluate(() => document.documentElement.scrollWidth), name).toBeLessThanOrEqual(size.width);
+      await page.screenshot({ path: join(SHOTS, `audit-${name}.png`), fullPage: true });
+    }
     expect(problems).toEqual([]);
     await page.close();
   });

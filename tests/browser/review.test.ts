@@ -588,7 +588,7 @@ describe('Release review', () => {
     await a.getByTestId('signature-block').waitFor();
     expect(await a.getByTestId('signature-block').textContent()).toContain('Protect from freezing.');
 
-    // B: not released; without a comment it still signs (the comment is optional), meaning "rejected".
+    // B: not released, with the comment that says why (required for this outcome), meaning "rejected".
     await b.getByTestId('decision-B-outcome-not_released').click();
     expect(await b.getByTestId('decision-B-shelf-life').count()).toBe(0);
     await b.getByTestId('decision-B-comment').fill('Day-0 viscosity far below the target; reformulate.');
@@ -615,7 +615,7 @@ describe('Release review', () => {
     const old = history.locator('li.superseded');
     expect(await old.count()).toBe(1);
     expect(await old.textContent()).toContain('Released with conditions');
-    expect(await old.textContent()).toMatch(/Replaced by no\. \d+, signed by Maya Lindqvist on .* UTC\. Reason: Freeze-thaw result came in after signing/);
+    expect(await old.textContent()).toMatch(/Replaced by no\. \d+, signed by Maya Lindqvist on .* UTC\)?\. Reason: Freeze-thaw result came in after signing/);
     expect(await old.locator('.struck').first().evaluate((el) => getComputedStyle(el).textDecorationLine)).toBe('line-through');
     await noBadText(page);
     await shot(page, history, 'review-decision-history.png');

@@ -1,5 +1,6 @@
 /** Headless Chromium (Debian's) through playwright-core, against a real app on a real MariaDB. */
-import { mkdirSync } from 'node:fs';
+import { mkdirSync, readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
 import type { AddressInfo } from 'node:net';
 import { join } from 'node:path';
 import { chromium, type Browser, type Page } from 'playwright-core';
@@ -20,8 +21,9 @@ export interface BrowserRig {
   close(): Promise<void>;
 }
 
-export async function startBrowserRig(): Promise<BrowserRig> {
-  const t = await createTestApp({ serveClient: true });
+/** `demo: 'full'` loads the invented demo labs' studies, readings and reviews (as `npm start` does). */
+export async function startBrowserRig(opts: { demo?: 'people' | 'full' } = {}): Promise<BrowserRig> {
+  const t = await createTestApp({ serveClient: true }, opts);
   const server = t.app.listen(0, '127.0.0.1');
   await new Promise((r) => server.once('listening', r));
   const baseUrl = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
@@ -81,4 +83,43 @@ export async function signInAs(page: Page, baseUrl: string, email: string) {
 export async function signInSettled(page: Page, baseUrl: string, email: string) {
   await signInAs(page, baseUrl, email);
   await page.waitForLoadState('networkidle');
+}
+
+/** The WCAG 2.1 A and AA rules of axe-core (Deque's engine, pinned in package.json). */
+const WCAG_21_AA = ['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa'];
+let axeSource: string | null = null;
+
+/**
+ * Runs axe-core on the page as it is now and returns each WCAG 2.1 A/AA violation in words
+ * (rule, impact, help, and every element's selector and why), so a test can expect `[]`. The
+ * engine is evaluated in the page through the DevTools protocol, which the app's CSP does not
+ * block. "label-content-name-mismatch" (2.5.3, a visible label inside the accessible name) is
+ * experimental in axe and is switched on too.
+ */
+export async function axeViolations(page: Page, opts: { exclude?: string[] } = {}): Promise<string[]> {
+  axeSource ??= readFileSync(createRequire(import.meta.url).resolve('axe-core/axe.min.js'), 'utf8');
+  if (!(await page.evaluate(() => 'axe' in window))) await page.evaluate(axeSource);
+  const violations = await page.evaluate(
+    async ({ tags, exclude }) => {
+      type Result = { violations: { id: string; impact: string | null; help: string; nodes: { target: unknown[]; failureSummary?: string }[] }[] };
+      const axe = (window as unknown as { axe: { run: (ctx: unknown, o: unknown) => Promise<Result>; getRules: (tags: string[]) => { ruleId: string; tags: string[] }[] } }).axe;
+      // The rules of those tags (experimental ones left out, as axe does by default), and the name-mismatch rule by name.
+      const ids = axe
+        .getRules(tags)
+        .filter((rule) => !rule.tags.includes('experimental') || rule.ruleId === 'label-content-name-mismatch')
+        .map((rule) => rule.ruleId);
+      const r = await axe.run(exclude.length ? { include: [['html']], exclude: exclude.map((x) => [x]) } : document, {
+        runOnly: { type: 'rule', values: ids },
+        resultTypes: ['violations'],
+      });
+      return r.violations.map((v) => ({
+        id: v.id,
+        impact: v.impact,
+        help: v.help,
+        nodes: v.nodes.map((n) => `${n.target.join(' ')}: ${(n.failureSummary ?? '').replace(/\s+/g, ' ').trim()}`),
+      }));
+    },
+    { tags: WCAG_21_AA, exclude: opts.exclude ?? [] },
+  );
+  return violations.flatMap((v) => v.nodes.map((n) => `${v.id} (${v.impact}): ${v.help} | ${n}`));
 }

@@ -21,13 +21,15 @@ describe('total messages', () => {
     expect(totalProblem(total(60, 40))).toBeNull();
     expect(totalProblem(total(60, 39.995))).toBeNull();
     expect(totalLabel(total(60, 40))).toBe('Total 100.00 %');
-    expect(totalLabel(total(60, 39.5))).toBe('99.50 % - 0.50 % short');
+    expect(totalLabel(total(60, 39.5))).toBe('Total 99.50 %: 0.50 % to go');
+    // An empty formula: the miss is not written as a subtraction ("0.00 % - 100.00 % short").
+    expect(totalLabel(total(0))).toBe('Total 0.00 %: 100.00 % to go');
   });
 
   it('shows four decimals when two would hide why a total was refused', () => {
     expect(totalProblem(total(60, 39.985))).toBe('Lines total 99.9850 %: 0.0150 % short of 100 %');
-    expect(totalLabel(total(60, 40.0125))).toBe('100.0125 % - 0.0125 % over');
-    expect(totalLabel(total(50, 49))).toBe('99.00 % - 1.00 % short');
+    expect(totalLabel(total(60, 40.0125))).toBe('Total 100.0125 %: 0.0125 % over');
+    expect(totalLabel(total(50, 49))).toBe('Total 99.00 %: 1.00 % to go');
   });
 });
 

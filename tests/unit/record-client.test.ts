@@ -13,7 +13,7 @@ import { createPinia, setActivePinia } from 'pinia';
 import type { Attribute, PlanBatch, StudyCheckpoint, StudySample } from '../../shared/schemas/studies';
 import type { ImportPreview, ImportPreviewRow, PhotoView } from '../../shared/schemas/records';
 import { SEPARATION_SCALE } from '../../shared/attributes-starter';
-import { changeLines, compact, whatText, auditTime } from '../../src/components/record/auditText';
+import { actionLabel, actionTone, auditTime, rawRecord } from '../../src/components/record/auditText';
 import {
   draftValue,
   entryHasContent,
@@ -123,31 +123,26 @@ describe('method details', () => {
   });
 });
 
-describe('audit trail in words', () => {
+describe('audit trail helpers', () => {
   const correction = {
+    id: 7,
+    at: '2026-12-01T09:30:05.000Z',
+    action: 'update',
     entity: 'observation',
     entityId: '12',
     oldValue: { value: 5.9, verdict: 'fail', version: 1, voided: false },
     newValue: { value: 5.5, verdict: 'pass', version: 2, sample: 'K7M2QX', checkpoint: 'Week 1', attribute: 'ph' },
+    reason: 'Read the wrong meter display',
   };
 
-  it('lists what changed as key: old → new, and what it is about under "What"', () => {
-    expect(changeLines(correction)).toEqual([
-      { key: 'value', old: '5.9', new: '5.5' },
-      { key: 'verdict', old: 'fail', new: 'pass' },
-      { key: 'version', old: '1', new: '2' },
-      { key: 'voided', old: 'false', new: undefined },
-    ]);
-    expect(whatText(correction)).toBe('Reading #12 · K7M2QX · Week 1 · ph');
-  });
-
-  it('a create lists its values, skips empty ones and keeps nested objects readable', () => {
-    const lines = changeLines({ oldValue: null, newValue: { value: 11500, method: { spindle: 'RV-5', speed: 10 }, notDoneReason: null } });
-    expect(lines).toEqual([
-      { key: 'value', old: undefined, new: '11500' },
-      { key: 'method', old: undefined, new: '{spindle: RV-5, speed: 10}' },
-    ]);
-    expect(compact('x'.repeat(300)).length).toBe(160);
+  it('keeps the raw record as stored, and names actions from the one vocabulary', () => {
+    expect(JSON.parse(rawRecord(correction))).toEqual(correction);
+    expect(rawRecord(correction)).toContain('\n  "oldValue": {');
+    expect(actionLabel('sign_failed')).toBe('Signature refused');
+    expect(actionLabel('submit')).toBe('Submitted for review');
+    expect(actionLabel('remeasure')).toBe('Re-measured');
+    expect(actionTone('lockout')).toBe('alert');
+    expect(actionTone('create')).toBe('plain');
   });
 
   it('shows times in the lab’s zone with seconds', () => {

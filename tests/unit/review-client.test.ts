@@ -13,7 +13,7 @@ import { createPinia, setActivePinia } from 'pinia';
 import type { StudyDetail } from '../../shared/schemas/studies';
 import DecisionForm from '../../src/components/review/DecisionForm.vue';
 import SubmitForm from '../../src/components/review/SubmitForm.vue';
-import { hashGroups, months, parseCsv, utcText } from '../../src/components/review/review';
+import { hashGroups, months, parseCsv, signedTimeText, utcText } from '../../src/components/review/review';
 import { useSessionStore } from '../../src/stores/session';
 
 const MOUNT_TIMEOUT = 20_000;
@@ -38,6 +38,9 @@ describe('review formatters', () => {
 
   it('writes signature times in UTC, hashes in groups of 8, months with their unit', () => {
     expect(utcText('2026-12-14T09:30:12.345Z')).toBe('2026-12-14 09:30:12 UTC');
+    // In lab time like every other time, with the UTC record beside it (Berlin is UTC+1 in December, IANA tz database).
+    expect(signedTimeText('2026-12-14T09:30:12.345Z', { timeZone: 'Europe/Berlin', dateFormat: 'YYYY-MM-DD' })).toBe('2026-12-14 10:30 Europe/Berlin (2026-12-14 09:30:12 UTC)');
+    expect(signedTimeText('2026-12-14T09:30:12.345Z', { timeZone: 'UTC' })).toBe('2026-12-14 09:30:12 UTC');
     expect(hashGroups('a'.repeat(64)).split(' ')).toHaveLength(8);
     expect(months(1)).toBe('1 month');
     expect(months(24)).toBe('24 months');
@@ -230,6 +233,13 @@ describe('DecisionForm', () => {
   it('says what the signature means and shows a wrong password beside the field', async () => {
     const w = mount(DecisionForm, { props, attachTo: document.body });
     await w.find('[data-testid="decision-A-outcome-not_released"] input').setValue(true);
+    // Not released needs a comment saying why: the label drops "(optional)".
+    await w.find('[data-testid="decision-A-sign"]').trigger('click');
+    await settle();
+    expect(document.body.querySelector('[data-testid="sign-dialog-body"]')).toBeNull();
+    expect(w.text()).toContain('Say why the variant is not released');
+    expect(w.text()).not.toContain('Comment (optional)');
+    await w.find('[data-testid="decision-A-comment"]').setValue('Separates at 45 °C.');
     await w.find('[data-testid="decision-A-sign"]').trigger('click');
     await flushPromises();
     const body = () => document.body.querySelector('[data-testid="sign-dialog-body"]');
@@ -239,7 +249,7 @@ describe('DecisionForm', () => {
     pw.dispatchEvent(new Event('input'));
     (document.body.querySelector('[data-testid="sign-confirm"]') as HTMLButtonElement).click();
     await settle();
-    expect(posted).toMatchObject({ variantId: 101, outcome: 'not_released', password: 'wrong' });
+    expect(posted).toMatchObject({ variantId: 101, outcome: 'not_released', comment: 'Separates at 45 °C.', password: 'wrong' });
     expect(posted).not.toHaveProperty('shelfLifeMonths');
     expect(body()?.querySelector('.el-form-item__error')?.textContent?.trim()).toBe('Wrong password');
     expect(w.emitted('signed')).toBeUndefined();

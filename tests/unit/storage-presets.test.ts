@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { conditionInput } from '../../shared/schemas/storage';
-import { HOT_CAUTION_C, PRESET_KEYS, SAFETY_RULES, STORAGE_PRESETS, cautionLines, conditionCautions, presetByKey } from '../../shared/storage-presets';
+import { DEEP_COLD_C, HOT_CAUTION_C, PRESET_KEYS, SAFETY_RULES, STORAGE_PRESETS, cautionLines, conditionCautions, presetByKey } from '../../shared/storage-presets';
 import { demoOvenReadings, mulberry32 } from '../../server/demo/storage';
 import { summarizeChamberLog } from '../../shared/compute/storage';
 
@@ -25,12 +25,15 @@ describe('storage presets', () => {
 
   it('say "common practice" on every other preset', () => {
     const others = STORAGE_PRESETS.filter((p) => p.source !== 'ich');
-    expect(others.map((p) => p.key).sort()).toEqual(['centrifuge-3000', 'freeze-thaw', 'fridge-4', 'oven-45', 'oven-50', 'window-daylight']);
+    expect(others.map((p) => p.key).sort()).toEqual(['centrifuge-3000', 'freeze-thaw', 'fridge-4', 'oven-45', 'oven-50', 'room', 'window-daylight']);
     for (const p of others) expect(p.sourceNote).toMatch(/Common practice.*no published source/);
     // Common practice, no published source: freeze-thaw -10 °C / 25 °C, 24 h each; centrifuge 3000 rpm 30 min.
     expect(presetByKey('freeze-thaw')!.input).toMatchObject({ kind: 'cycling', lowC: -10, highC: 25, hoursLow: 24, hoursHigh: 24 });
     expect(presetByKey('centrifuge-3000')!.input).toMatchObject({ kind: 'mechanical', rpm: 3000, minutes: 30 });
     expect(presetByKey('fridge-4')!.input).toMatchObject({ setpointC: 4, isControl: true });
+    // Room temperature: a shelf in the lab, 22 °C ± 3 °C (common practice; no heat or cold caution).
+    expect(presetByKey('room')!.input).toMatchObject({ kind: 'constant', setpointC: 22, toleranceC: 3 });
+    expect(conditionCautions(presetByKey('room')!.input as never)).toEqual([]);
   });
 
   it('are all valid condition inputs with unique keys', () => {
@@ -40,20 +43,34 @@ describe('storage presets', () => {
 });
 
 describe('safety cautions', () => {
-  it('warn of hot surfaces from 40 °C, of cold burns and dry ice at 0 °C and below and for freeze-thaw, of UV and centrifuges', () => {
-    expect(HOT_CAUTION_C).toBe(40);
+  // Thresholds are common practice, no published source: gloves for ovens from 45 °C (a 40 °C cabinet is
+  // warm, not hot); frozen surfaces at 0 °C and below; cryogenic gloves and dry ice at -40 °C and below.
+  it('warn of hot ovens from 45 °C, of frozen surfaces at 0 °C and below, of dry ice only at -40 °C and below, of UV and centrifuges', () => {
+    expect(HOT_CAUTION_C).toBe(45);
+    expect(DEEP_COLD_C).toBe(-40);
     expect(conditionCautions({ kind: 'constant', setpointC: 39 })).toEqual([]);
+    // A 40 °C / 75 % RH climate cabinet: no heat gloves.
+    expect(conditionCautions({ kind: 'constant', setpointC: 40 })).toEqual([]);
+    expect(conditionCautions({ kind: 'constant', setpointC: 44 })).toEqual([]);
     expect(conditionCautions({ kind: 'constant', setpointC: 4 })).toEqual([]);
     const hot = conditionCautions({ kind: 'constant', setpointC: 45 });
     expect(hot.map((c) => c.key)).toEqual(['hot']);
     expect(hot[0].text).toMatch(/heat-resistant gloves/);
     expect(hot[0].text).toMatch(/cool/);
+    // A -10 °C freezer (freeze-thaw): frozen surfaces, no dry ice.
     const ft = conditionCautions({ kind: 'cycling', lowC: -10, highC: 25 });
     expect(ft.map((c) => c.key)).toEqual(['cold']);
-    expect(ft[0].text).toMatch(/cold burns/);
-    expect(ft[0].text).toMatch(/ventilation/);
-    expect(ft[0].text).toMatch(/never in a sealed container/);
+    expect(ft[0].text).toMatch(/dry gloves/);
+    expect(ft[0].text).not.toMatch(/dry ice/i);
     expect(conditionCautions({ kind: 'constant', setpointC: 0 }).map((c) => c.key)).toEqual(['cold']);
+    expect(conditionCautions({ kind: 'constant', setpointC: -20 }).map((c) => c.key)).toEqual(['cold']);
+    // A -80 °C freezer: cryogenic gloves, and dry ice with its ventilation rule.
+    const deep = conditionCautions({ kind: 'constant', setpointC: -80 });
+    expect(deep.map((c) => c.key)).toEqual(['deep_cold']);
+    expect(deep[0].text).toMatch(/cryogenic gloves/);
+    expect(deep[0].text).toMatch(/ventilation/);
+    expect(deep[0].text).toMatch(/never in a sealed container/);
+    expect(conditionCautions({ kind: 'cycling', lowC: -40, highC: 25 }).map((c) => c.key)).toEqual(['deep_cold']);
     expect(conditionCautions({ kind: 'cycling', lowC: -10, highC: 45 }).map((c) => c.key)).toEqual(['hot', 'cold']);
     expect(conditionCautions({ kind: 'light', lightSource: 'daylight' })).toEqual([]);
     const uv = conditionCautions({ kind: 'light', lightSource: 'uv_cabinet' });

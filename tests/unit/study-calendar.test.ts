@@ -5,7 +5,8 @@
  */
 import { describe, expect, it } from 'vitest';
 import type { ConditionKind } from '../../shared/domain';
-import { readingCounts, studyCalendar, type CalendarCondition, type ControlPull } from '../../shared/compute/study-calendar';
+import { pullGapWarnings, readingCounts, studyCalendar, type CalendarCondition, type ControlPull } from '../../shared/compute/study-calendar';
+import { SCHEDULE_TEMPLATES } from '../../shared/compute/schedule';
 
 const w = (n: number) => ({ unit: 'week' as const, n });
 const m = (n: number) => ({ unit: 'month' as const, n });
@@ -71,5 +72,40 @@ describe('studyCalendar', () => {
     expect(r.addedControl).toBe(5 * 30);
     expect(r.pulls).toBe((8 + 3 + 2 + 2) * 30);
     expect(r.total).toBe(r.initial + r.pulls);
+  });
+});
+
+describe('pullGapWarnings (interval: the median gap between pulls, counted from the initial test; common practice, no published source)', () => {
+  const d = (n: number) => ({ unit: 'day' as const, n });
+
+  it('says nothing about the built-in schedules, ICH Q1A(R2) 2.2.7 real time (3-, 6-, then 12-monthly) included', () => {
+    const all = Object.values(SCHEDULE_TEMPLATES).map((t) => ({ name: t.label, offsets: t.offsets, cycleHours: 48 }));
+    expect(pullGapWarnings(all)).toEqual([]);
+  });
+
+  it('warns about a pull taken out of the middle: weeks 1, 2, 4 and 12 (gaps 1, 1, 2, 8 weeks; median 1.5)', () => {
+    expect(pullGapWarnings([{ name: 'Oven', offsets: [w(1), w(2), w(4), w(12)] }])).toEqual([
+      'Oven: no pull between Week 4 and Week 12 (8 weeks), over twice its usual interval (1.5 weeks, the median gap between its pulls). Add a pull in between, or keep the gap on purpose.',
+    ]);
+  });
+
+  it('warns in months for a monthly calendar that jumps to a year (gaps 1, 1, 1, 9 months)', () => {
+    const out = pullGapWarnings([{ name: 'Room', offsets: [m(1), m(2), m(3), m(12)] }]);
+    expect(out).toHaveLength(1);
+    expect(out[0]).toContain('between Month 3 and Month 12 (9 months)');
+    expect(out[0]).toContain('(1 month, the median');
+  });
+
+  it('does not warn when the long gaps are the usual interval (days 1, 11, 21, 31: median 10) or there are fewer than three gaps', () => {
+    expect(pullGapWarnings([{ name: 'A', offsets: [d(1), d(11), d(21), d(31)] }])).toEqual([]);
+    expect(pullGapWarnings([{ name: 'B', offsets: [w(1), w(12)] }])).toEqual([]);
+  });
+
+  it('orders the pulls by time whatever order they are listed in, and counts cycles by the cycle length', () => {
+    expect(pullGapWarnings([{ name: 'Oven', offsets: [w(12), w(1), w(4), w(2)] }])).toHaveLength(1);
+    // Cycles 1, 2, 3, 10 of 48 h: gaps 2, 2, 2, 14 days.
+    const ft = pullGapWarnings([{ name: 'Freeze-thaw', offsets: [c(1), c(2), c(3), c(10)], cycleHours: 48 }]);
+    expect(ft[0]).toContain('between Cycle 3 and Cycle 10 (7 cycles)');
+    expect(ft[0]).toContain('(1 cycle, the median');
   });
 });

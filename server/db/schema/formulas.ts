@@ -88,6 +88,8 @@ export const batches = mysqlTable(
     notes: text('notes'),
     /** The formula as it was when the batch was made: later edits to the variant do not change it. */
     formulaSnapshot: json('formula_snapshot').notNull(),
+    /** Raw-material lot and supplier per line of the snapshot, by the line's position. */
+    materialLots: json('material_lots').$type<{ position: number; lot: string; supplier: string }[]>(),
     createdBy: ref('created_by').references(() => users.id),
     createdAt: createdAt(),
   },

@@ -8,3 +8,4 @@ export * from './records';
 export * from './decisions';
 export * from './oos';
 export * from './limits';
+export * from './templates';

@@ -100,6 +100,18 @@ export const studyBatches = mysqlTable(
   (t) => [primaryKey({ columns: [t.studyId, t.batchId] })],
 );
 
+/** The members responsible for a study, in order; the first is also `studies.responsibleId` (the main person). */
+export const studyResponsibles = mysqlTable(
+  'study_responsibles',
+  {
+    studyId: ref('study_id').notNull().references(() => studies.id),
+    userId: ref('user_id').notNull().references(() => users.id),
+    labId: ref('lab_id').notNull(),
+    position: int('position').notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.studyId, t.userId] }), index('study_responsibles_user_idx').on(t.labId, t.userId)],
+);
+
 export const studyConditions = mysqlTable(
   'study_conditions',
   {

@@ -8,6 +8,7 @@ import type { ObservationView, RecordAttribute, RecordSheet } from '../../../sha
 import type { Attribute } from '../../../shared/schemas/studies';
 import { addDays } from '../../../shared/compute/schedule';
 import type { Db, DbOrTx } from '../../db/client';
+import { reusable } from '../../db/prepared';
 import { batches, checkpoints, observations, oosInvestigations, products, samples, storageConditions, studyConditions, users, variants } from '../../db/schema';
 import { photosFor } from '../photos';
 import { conditionForCautions } from '../storage-conditions';
@@ -61,6 +62,84 @@ export function attributeView(a: AttributeRow): Attribute {
   };
 }
 
+// Built once and reused (server/db/prepared.ts): every Record sheet runs these.
+const checkpointById = reusable((db) => db.select().from(checkpoints).where(eq(checkpoints.id, sql.placeholder('id'))));
+const controlSamples = reusable((db) =>
+  db
+    .select({ id: samples.id, code: samples.code, replicate: samples.replicate })
+    .from(samples)
+    .where(and(eq(samples.studyConditionId, sql.placeholder('scId')), eq(samples.batchId, sql.placeholder('batchId'))))
+    .orderBy(desc(sql`${samples.replicate} = ${sql.placeholder('replicate')}`), asc(samples.labelOrder)),
+);
+const controlReadings = reusable((db) =>
+  db
+    .select({ o: observations, code: samples.code })
+    .from(observations)
+    .innerJoin(samples, eq(samples.id, observations.sampleId))
+    .where(
+      and(
+        eq(observations.checkpointId, sql.placeholder('cpId')),
+        eq(samples.studyConditionId, sql.placeholder('scId')),
+        eq(samples.batchId, sql.placeholder('batchId')),
+        eq(observations.voided, false),
+        ne(observations.verdict, 'not_done'),
+      ),
+    ),
+);
+const currentReadings = reusable((db) =>
+  db
+    .select({ o: observations, who: users.name })
+    .from(observations)
+    .innerJoin(users, eq(users.id, observations.recordedBy))
+    .where(and(eq(observations.sampleId, sql.placeholder('sampleId')), eq(observations.checkpointId, sql.placeholder('checkpointId')))),
+);
+const previousReadings = reusable((db) =>
+  db
+    .select({ o: observations, label: checkpoints.label, due: checkpoints.dueDate })
+    .from(observations)
+    .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
+    .where(and(eq(observations.sampleId, sql.placeholder('sampleId')), eq(observations.voided, false), sql`${checkpoints.dueDate} < ${sql.placeholder('due')}`))
+    .orderBy(desc(checkpoints.dueDate)),
+);
+// Qualified by hand: drizzle leaves columns of a one-table select unqualified, and a bare `id` inside
+// the subquery would name observations.id, not the sample's.
+const siblingCount = (checkpointId: unknown) =>
+  sql<number>`(SELECT count(*) FROM ${observations} AS o WHERE o.sample_id = ${sql.raw('`samples`.`id`')} AND o.checkpoint_id = ${checkpointId} AND o.voided = false)`;
+const pullSiblings = reusable((db) =>
+  db
+    .select({ id: samples.id, code: samples.code, n: siblingCount(sql.placeholder('checkpointId')) })
+    .from(samples)
+    .where(eq(samples.studyConditionId, sql.placeholder('scId')))
+    .orderBy(asc(samples.labelOrder)),
+);
+const conditionOf = reusable((db) =>
+  db
+    .select({ ...conditionForCautions, role: studyConditions.role })
+    .from(studyConditions)
+    .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
+    .where(eq(studyConditions.id, sql.placeholder('scId'))),
+);
+const batchNames = reusable((db) =>
+  db
+    .select({ product: products.name, vCode: variants.code, vName: variants.name, lot: batches.lotCode })
+    .from(batches)
+    .innerJoin(variants, eq(variants.id, batches.variantId))
+    .innerJoin(products, eq(products.id, variants.productId))
+    .where(eq(batches.id, sql.placeholder('batchId'))),
+);
+const investigationsAt = reusable((db) =>
+  db
+    .select()
+    .from(oosInvestigations)
+    .where(
+      and(
+        eq(oosInvestigations.labId, sql.placeholder('labId')),
+        eq(oosInvestigations.sampleId, sql.placeholder('sampleId')),
+        eq(oosInvestigations.checkpointId, sql.placeholder('checkpointId')),
+      ),
+    ),
+);
+
 interface ControlRef {
   values: Map<number, { value: Value; label: string; code: string; sameDay: boolean }>;
   reading: RecordSheet['controlReading'];
@@ -77,20 +156,26 @@ async function controlFor(db: DbOrTx, ctx: Context, role: string | null): Promis
   if (ctx.checkpoint.kind !== 'pull' || role === 'control') return { values, reading: null };
   const pairedId = ctx.checkpoint.controlCheckpointId;
   if (pairedId != null) {
-    const [paired] = await db.select().from(checkpoints).where(eq(checkpoints.id, pairedId));
-    const candidates = await db
-      .select({ id: samples.id, code: samples.code, replicate: samples.replicate })
-      .from(samples)
-      .where(and(samplesAtCheckpoint(paired), eq(samples.batchId, ctx.sample.batchId)))
-      .orderBy(desc(sql`${samples.replicate} = ${ctx.sample.replicate}`), asc(samples.labelOrder));
+    const [paired] = await checkpointById(db, { id: pairedId });
+    // A control pull's samples are its condition's (statements built once); the initial test's are worked out.
+    const pull = paired.kind !== 'initial';
+    const candidates = pull
+      ? await controlSamples(db, { scId: paired.studyConditionId, batchId: ctx.sample.batchId, replicate: ctx.sample.replicate })
+      : await db
+          .select({ id: samples.id, code: samples.code, replicate: samples.replicate })
+          .from(samples)
+          .where(and(samplesAtCheckpoint(paired), eq(samples.batchId, ctx.sample.batchId)))
+          .orderBy(desc(sql`${samples.replicate} = ${ctx.sample.replicate}`), asc(samples.labelOrder));
     const ids = candidates.map((c) => c.id);
-    const rows = ids.length
-      ? await db
-          .select({ o: observations, code: samples.code })
-          .from(observations)
-          .innerJoin(samples, eq(samples.id, observations.sampleId))
-          .where(and(eq(observations.checkpointId, pairedId), inArray(observations.sampleId, ids), eq(observations.voided, false), ne(observations.verdict, 'not_done')))
-      : [];
+    const rows = !ids.length
+      ? []
+      : pull
+        ? await controlReadings(db, { cpId: pairedId, scId: paired.studyConditionId, batchId: ctx.sample.batchId })
+        : await db
+            .select({ o: observations, code: samples.code })
+            .from(observations)
+            .innerJoin(samples, eq(samples.id, observations.sampleId))
+            .where(and(eq(observations.checkpointId, pairedId), inArray(observations.sampleId, ids), eq(observations.voided, false), ne(observations.verdict, 'not_done')));
     const rank = (sampleId: number) => ids.indexOf(sampleId);
     for (const r of rows.sort((a, b) => rank(a.o.sampleId) - rank(b.o.sampleId))) {
       if (values.has(r.o.studyAttributeId)) continue;
@@ -140,49 +225,23 @@ async function controlFor(db: DbOrTx, ctx: Context, role: string | null): Promis
 
 export async function recordSheet(db: Db, labId: number, code: string, checkpointId: number, today: string): Promise<RecordSheet> {
   const ctx = await context(db, labId, code, checkpointId);
+  const at = { sampleId: ctx.sample.id, checkpointId };
   const [base, current, previous, siblings, photos, cond, meta, invs] = await Promise.all([
     baselines(db, ctx.study, ctx.sample, ctx.attrs),
-    db
-      .select({ o: observations, who: users.name })
-      .from(observations)
-      .innerJoin(users, eq(users.id, observations.recordedBy))
-      .where(and(eq(observations.sampleId, ctx.sample.id), eq(observations.checkpointId, checkpointId))),
+    currentReadings(db, at),
     // The latest earlier checkpoint's value of this sample, per attribute.
-    db
-      .select({ o: observations, label: checkpoints.label, due: checkpoints.dueDate })
-      .from(observations)
-      .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
-      .where(and(eq(observations.sampleId, ctx.sample.id), eq(observations.voided, false), sql`${checkpoints.dueDate} < ${ctx.checkpoint.dueDate}`))
-      .orderBy(desc(checkpoints.dueDate)),
-    db
-      .select({
-        id: samples.id,
-        code: samples.code,
-        // Qualified by hand: drizzle leaves columns of a one-table select unqualified, and a bare `id`
-        // inside the subquery would name observations.id, not the sample's.
-        n: sql<number>`(SELECT count(*) FROM ${observations} AS o WHERE o.sample_id = ${sql.raw('`samples`.`id`')} AND o.checkpoint_id = ${checkpointId} AND o.voided = false)`,
-      })
-      .from(samples)
-      .where(samplesAtCheckpoint(ctx.checkpoint))
-      .orderBy(asc(samples.labelOrder)),
-    photosFor(db, labId, { sampleId: ctx.sample.id, checkpointId }),
-    ctx.sample.studyConditionId == null
-      ? Promise.resolve([])
+    previousReadings(db, { sampleId: ctx.sample.id, due: ctx.checkpoint.dueDate }),
+    ctx.checkpoint.kind !== 'initial'
+      ? pullSiblings(db, { checkpointId, scId: ctx.checkpoint.studyConditionId })
       : db
-          .select({ ...conditionForCautions, role: studyConditions.role })
-          .from(studyConditions)
-          .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
-          .where(eq(studyConditions.id, ctx.sample.studyConditionId)),
-    db
-      .select({ product: products.name, vCode: variants.code, vName: variants.name, lot: batches.lotCode })
-      .from(batches)
-      .innerJoin(variants, eq(variants.id, batches.variantId))
-      .innerJoin(products, eq(products.id, variants.productId))
-      .where(eq(batches.id, ctx.sample.batchId)),
-    db
-      .select()
-      .from(oosInvestigations)
-      .where(and(eq(oosInvestigations.labId, labId), eq(oosInvestigations.sampleId, ctx.sample.id), eq(oosInvestigations.checkpointId, checkpointId))),
+          .select({ id: samples.id, code: samples.code, n: siblingCount(checkpointId) })
+          .from(samples)
+          .where(samplesAtCheckpoint(ctx.checkpoint))
+          .orderBy(asc(samples.labelOrder)),
+    photosFor(db, labId, { sampleId: ctx.sample.id, checkpointId }),
+    ctx.sample.studyConditionId == null ? Promise.resolve([]) : conditionOf(db, { scId: ctx.sample.studyConditionId }),
+    batchNames(db, { batchId: ctx.sample.batchId }),
+    investigationsAt(db, { labId, ...at }),
   ]);
   const condition = cond[0] ?? null;
   const control = await controlFor(db, ctx, condition?.role ?? null);
@@ -206,7 +265,10 @@ export async function recordSheet(db: Db, labId: number, code: string, checkpoin
       attribute: attributeView(a),
       criterion: sa.criterion,
       baseline: b && !atInitial ? b : null,
-      previous: prev && valueOf(a.kind, prev.o) != null ? { value: valueOf(a.kind, prev.o)!, label: prev.label } : null,
+      previous:
+        prev && valueOf(a.kind, prev.o) != null
+          ? { value: valueOf(a.kind, prev.o)!, label: prev.label, ...(prev.o.method ? { method: prev.o.method as Record<string, string | number> } : {}) }
+          : null,
       control: ctl ? { value: ctl.value, label: ctl.label, sampleCode: ctl.code, sameDay: ctl.sameDay } : null,
       current: cur ? toView(a, { ...cur.o, who: cur.who }, message, invs.find((i) => i.observationId === cur.o.id)) : null,
     };

@@ -5,6 +5,7 @@
 import { and, asc, desc, eq, ne, or, sql } from 'drizzle-orm';
 import { COMPARED_LEVELS, evaluate, physicalRangeError, type ComparedLevel, type Criterion, type Evaluation } from '../../../shared/compute/criteria';
 import type { DbOrTx } from '../../db/client';
+import { reusable } from '../../db/prepared';
 import { attributes, checkpoints, observations, samples, storageConditions, studyConditions } from '../../db/schema';
 
 type ObservationRow = typeof observations.$inferSelect;
@@ -70,7 +71,49 @@ export interface Baseline {
   value: Value;
   label: string;
   sampleCode: string;
+  /** The method details of that reading, offered again at later pulls (absent when none were noted). */
+  method?: Record<string, string | number>;
 }
+
+/** Readings that can be a baseline (see baselines), best first; built once (server/db/prepared.ts). */
+const baselineRows = reusable((db) =>
+  db
+    .select({
+      attr: observations.studyAttributeId,
+      valueNum: observations.valueNum,
+      valueText: observations.valueText,
+      valueBool: observations.valueBool,
+      verdict: observations.verdict,
+      method: observations.method,
+      code: samples.code,
+      kind: checkpoints.kind,
+      label: checkpoints.label,
+    })
+    .from(observations)
+    .innerJoin(samples, eq(samples.id, observations.sampleId))
+    .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
+    .leftJoin(studyConditions, eq(studyConditions.id, checkpoints.studyConditionId))
+    .leftJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
+    .where(
+      and(
+        eq(observations.labId, sql.placeholder('labId')),
+        eq(observations.studyId, sql.placeholder('studyId')),
+        eq(samples.batchId, sql.placeholder('batchId')),
+        eq(observations.voided, false),
+        ne(observations.verdict, 'not_done'),
+        or(
+          eq(checkpoints.kind, 'initial'),
+          and(eq(checkpoints.offsetN, 0), ne(checkpoints.offsetUnit, 'cycle'), ne(storageConditions.kind, 'mechanical')),
+        ),
+      ),
+    )
+    .orderBy(
+      desc(sql`${checkpoints.kind} = 'initial'`),
+      desc(sql`${samples.id} = ${sql.placeholder('sampleId')}`),
+      desc(sql`${samples.replicate} = ${sql.placeholder('replicate')}`),
+      asc(samples.labelOrder),
+    ),
+);
 
 /**
  * The baseline of every attribute for one sample: the reading of its batch's initial test (the
@@ -83,47 +126,13 @@ export async function baselines(
   sample: { id: number; batchId: number; replicate: number },
   attrs: { sa: { id: number }; a: AttributeRow }[],
 ): Promise<Map<number, Baseline>> {
-  const rows = await db
-    .select({
-      attr: observations.studyAttributeId,
-      valueNum: observations.valueNum,
-      valueText: observations.valueText,
-      valueBool: observations.valueBool,
-      verdict: observations.verdict,
-      code: samples.code,
-      kind: checkpoints.kind,
-      label: checkpoints.label,
-    })
-    .from(observations)
-    .innerJoin(samples, eq(samples.id, observations.sampleId))
-    .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
-    .leftJoin(studyConditions, eq(studyConditions.id, checkpoints.studyConditionId))
-    .leftJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
-    .where(
-      and(
-        eq(observations.labId, study.labId),
-        eq(observations.studyId, study.id),
-        eq(samples.batchId, sample.batchId),
-        eq(observations.voided, false),
-        ne(observations.verdict, 'not_done'),
-        or(
-          eq(checkpoints.kind, 'initial'),
-          and(eq(checkpoints.offsetN, 0), ne(checkpoints.offsetUnit, 'cycle'), ne(storageConditions.kind, 'mechanical')),
-        ),
-      ),
-    )
-    .orderBy(
-      desc(sql`${checkpoints.kind} = 'initial'`),
-      desc(sql`${samples.id} = ${sample.id}`),
-      desc(sql`${samples.replicate} = ${sample.replicate}`),
-      asc(samples.labelOrder),
-    );
+  const rows = await baselineRows(db, { labId: study.labId, studyId: study.id, batchId: sample.batchId, sampleId: sample.id, replicate: sample.replicate });
   const out = new Map<number, Baseline>();
   for (const r of rows) {
     if (out.has(r.attr)) continue;
     const a = attrs.find((x) => x.sa.id === r.attr);
     const v = a ? valueOf(a.a.kind, r) : null;
-    if (v != null) out.set(r.attr, { value: v, label: r.kind === 'initial' ? 'Initial' : 'Day 0', sampleCode: r.code });
+    if (v != null) out.set(r.attr, { value: v, label: r.kind === 'initial' ? 'Initial' : 'Day 0', sampleCode: r.code, ...(r.method ? { method: r.method as Baseline['method'] } : {}) });
   }
   return out;
 }

@@ -9,9 +9,11 @@ import type { BenchResponse } from '../../../shared/schemas/studies';
 import type { Db } from '../../db/client';
 import { batches, checkpoints, observations, products, samples, storageConditions, studies, studyAttributes, studyConditions, variants } from '../../db/schema';
 import { unconfirmedBySample } from '../oos';
+import { INITIAL_GROUP, orderBenchGroups } from '../../../shared/compute/bench';
+import { studiesOfMember } from './responsibles';
 
 /** Where the Bench lists the initial test: its samples are the batches' retained samples. */
-export const INITIAL_GROUP = 'Initial test (before storage)';
+export { INITIAL_GROUP };
 
 /** The Bench's first query: open checkpoints of running studies whose window opens by `until`. Exported for `npm run bench`. */
 export function benchCheckpointsQuery(db: Db, labId: number, until: string) {
@@ -80,7 +82,8 @@ export function benchDetailQueries(db: Db, labId: number, scIds: number[], study
   ] as const;
 }
 
-export async function bench(db: Db, labId: number, today: string, days: number): Promise<BenchResponse> {
+/** `userId`: the signed-in member, to mark the studies they are responsible for (`study.mine`). */
+export async function bench(db: Db, labId: number, today: string, days: number, userId = 0): Promise<BenchResponse> {
   const until = addDays(today, days);
   const cps = await benchCheckpointsQuery(db, labId, until);
 
@@ -92,7 +95,7 @@ export async function bench(db: Db, labId: number, today: string, days: number):
   const initialStudyIds = [...new Set(cps.filter((c) => c.cp.kind === 'initial').map((c) => c.cp.studyId))];
   const cpIds = cps.map((c) => c.cp.id);
   const controlIds = cps.filter((c) => c.role === 'control').map((c) => c.cp.id);
-  const [[sampleRows, attrCounts, recorded], unconfirmed, served] = await Promise.all([
+  const [[sampleRows, attrCounts, recorded], unconfirmed, served, myStudies] = await Promise.all([
     Promise.all(benchDetailQueries(db, labId, scIds, studyIds, cpIds, initialStudyIds)),
     unconfirmedBySample(db, labId, cpIds),
     controlIds.length
@@ -104,6 +107,7 @@ export async function bench(db: Db, labId: number, today: string, days: number):
           .where(and(eq(checkpoints.labId, labId), inArray(checkpoints.controlCheckpointId, controlIds)))
           .orderBy(asc(studyConditions.position))
       : Promise.resolve([]),
+    studiesOfMember(db, labId, userId, studyIds),
   ]);
   // Condition samples holding initial readings (studies recorded before the initial test existed).
   const holders = initialStudyIds.length
@@ -156,15 +160,14 @@ export async function bench(db: Db, labId: number, today: string, days: number):
       windowStart: addDays(c.cp.dueDate, -c.cp.windowBefore),
       windowEnd: addDays(c.cp.dueDate, c.cp.windowAfter),
       state,
-      study: { id: c.cp.studyId, title: c.studyTitle, product: c.productName },
+      study: { id: c.cp.studyId, title: c.studyTitle, product: c.productName, mine: myStudies.has(c.cp.studyId) },
       attributeCount,
       toRecord: Math.max(0, benchSamples.length * attributeCount - done),
       samples: benchSamples,
     });
   }
-  // The initial test first (it comes before everything else), then the rest as ordered; overdue work first within each condition.
-  groups.sort((a, b) => Number(b.location === INITIAL_GROUP) - Number(a.location === INITIAL_GROUP));
+  // Overdue work first within each condition; locations by urgency (shared/compute/bench.ts).
   const rank = { overdue: 0, due: 1, upcoming: 2, done: 3, missed: 4 } as const;
   for (const g of groups) for (const c of g.conditions) c.checkpoints.sort((a, b) => rank[a.state] - rank[b.state] || a.dueDate.localeCompare(b.dueDate));
-  return { today, until, counts, groups };
+  return { today, until, counts, groups: orderBenchGroups(groups) };
 }

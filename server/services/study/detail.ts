@@ -23,6 +23,7 @@ import {
 import { notFound } from '../../http/errors';
 import { investigationsOf, openCounts } from '../oos';
 import { cycleHoursOf } from './common';
+import { responsiblesOf } from './responsibles';
 
 export function checkpointView(row: typeof checkpoints.$inferSelect, today: string, recorded: number, expected: number): StudyCheckpoint {
   const state =
@@ -55,7 +56,7 @@ export async function studyDetail(db: Db, labId: number, studyId: number, today:
     .leftJoin(users, eq(users.id, studies.responsibleId))
     .where(and(eq(studies.labId, labId), eq(studies.id, studyId)));
   if (!row) throw notFound('No such study in your lab');
-  const [batchRows, condRows, attrRows, sampleRows, cpRows, amendRows, counts, holders, investigations] = await Promise.all([
+  const [batchRows, condRows, attrRows, sampleRows, cpRows, amendRows, counts, holders, investigations, people] = await Promise.all([
     db
       .select({ b: batches, v: { id: variants.id, code: variants.code, name: variants.name } })
       .from(studyBatches)
@@ -95,6 +96,7 @@ export async function studyDetail(db: Db, labId: number, studyId: number, today:
       .innerJoin(checkpoints, eq(checkpoints.id, observations.checkpointId))
       .where(and(eq(observations.labId, labId), eq(observations.studyId, studyId), eq(checkpoints.kind, 'initial'))),
     investigationsOf(db, labId, { studyId }),
+    responsiblesOf(db, labId, [studyId]),
   ]);
   const samplesAt = (cp: (typeof cpRows)[number]) => {
     if (cp.kind !== 'initial') return sampleRows.filter((s) => s.studyConditionId === cp.studyConditionId).length;
@@ -109,6 +111,7 @@ export async function studyDetail(db: Db, labId: number, studyId: number, today:
     startDate: s.startDate,
     product: row.p,
     responsible: row.r?.id ? { id: row.r.id, name: row.r.name } : null,
+    responsibles: people.get(s.id) ?? [],
     samplesPerCell: s.samplesPerCell,
     containerDescription: s.containerDescription,
     fillGrams: s.fillGrams,
@@ -190,7 +193,7 @@ export async function listStudies(db: Db, labId: number, today: string, status?:
     .leftJoin(users, eq(users.id, studies.responsibleId))
     .where(and(...conds))
     .orderBy(sql`FIELD(${studies.status}, 'running', 'in_review', 'draft', 'decided', 'cancelled')`, asc(studies.startDate));
-  const oos = await openCounts(db, labId, rows.map((r) => r.id));
+  const [oos, people] = await Promise.all([openCounts(db, labId, rows.map((r) => r.id)), responsiblesOf(db, labId, rows.map((r) => r.id))]);
   return rows.map((r) => ({
     id: r.id,
     title: r.title,
@@ -198,6 +201,7 @@ export async function listStudies(db: Db, labId: number, today: string, status?:
     startDate: r.startDate,
     product: { id: r.productId, name: r.productName },
     responsible: r.responsibleId ? { id: r.responsibleId, name: r.responsibleName! } : null,
+    responsibles: people.get(r.id) ?? [],
     batchCount: Number(r.batchCount),
     conditionCount: Number(r.conditionCount),
     sampleCount: Number(r.sampleCount),

@@ -1,7 +1,7 @@
 /** Study plans: checks against the lab's data, the preview (calendar, readings, warnings), saving a draft. */
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import { CRITERION_KINDS_BY_ATTRIBUTE } from '../../../shared/compute/criteria';
-import { dayZeroAllowed, isDayZero, readingCounts, studyCalendar, type ControlPull } from '../../../shared/compute/study-calendar';
+import { dayZeroAllowed, isDayZero, pullGapWarnings, readingCounts, studyCalendar, type ControlPull } from '../../../shared/compute/study-calendar';
 import { addDays } from '../../../shared/compute/schedule';
 import type { ConditionKind } from '../../../shared/domain';
 import { cautionLines } from '../../../shared/storage-presets';
@@ -11,6 +11,7 @@ import { attributes, batches, products, storageConditions, studies, studyAttribu
 import { conflict, HttpError, notFound } from '../../http/errors';
 import { audit } from '../audit';
 import { bad, cycleHoursOf, type Actor } from './common';
+import { responsibleList, responsiblesOf, setResponsibles } from './responsibles';
 
 export interface CheckedPlan {
   product: { id: number; name: string; type: string };
@@ -89,12 +90,16 @@ export async function checkPlan(db: DbOrTx, labId: number, plan: StudyPlanInput)
   });
   if (dupes(attributeIds) >= 0) fields[`attributes.${dupes(attributeIds)}.attributeId`] = 'Listed twice';
 
-  if (plan.responsibleId != null) {
-    const [who] = await db
+  const people = responsibleList(plan);
+  if (people.length) {
+    const found = await db
       .select({ id: users.id })
       .from(users)
-      .where(and(eq(users.labId, labId), eq(users.id, plan.responsibleId), eq(users.active, true)));
-    if (!who) fields.responsibleId = 'No such active member in your lab';
+      .where(and(eq(users.labId, labId), inArray(users.id, people), eq(users.active, true)));
+    if (plan.responsibleId != null && !found.some((w) => w.id === plan.responsibleId)) fields.responsibleId = 'No such active member in your lab';
+    (plan.responsibleIds ?? []).forEach((rid, i) => {
+      if (!found.some((w) => w.id === rid)) fields[`responsibleIds.${i}`] = 'No such active member in your lab';
+    });
   }
 
   if (Object.keys(fields).length) throw bad(fields);
@@ -147,6 +152,7 @@ export function previewPlan(plan: StudyPlanInput, checked: CheckedPlan): PlanPre
     };
   });
   warnings.push(...calendar.warnings);
+  warnings.push(...pullGapWarnings(plan.conditions.map((pc, i) => ({ name: rowOf(i).name, offsets: pc.offsets, cycleHours: cycleHoursOf(rowOf(i)) ?? undefined }))));
   const hasControl = calendar.controlKey != null || plan.conditions.some((pc) => checked.conditionRows.find((c) => c.id === pc.conditionId)?.isControl);
   const compared = checked.attributeRows.filter((a) => a.kind === 'compared');
   if (!hasControl && compared.length) warnings.push(`${compared.map((a) => a.name).join(', ')} compare with a control that this plan does not have.`);
@@ -184,7 +190,8 @@ export async function savePlan(db: Db, actor: Actor, plan: StudyPlanInput, study
         .for('update');
       if (!row) throw notFound('No such study in your lab');
       if (row.status !== 'draft') throw conflict('This study has started: change it with an amendment and a reason');
-      old = await planOf(tx, id);
+      // The whole list of people in the audit row; planOf leaves it out (a signature's hash reads planOf).
+      old = { ...(await planOf(tx, id)), responsibleIds: (await responsiblesOf(tx, actor.labId, [id])).get(id)?.map((p) => p.id) ?? [] };
       await tx.update(studies).set(studyColumns(plan)).where(eq(studies.id, id));
       await tx.delete(studyBatches).where(eq(studyBatches.studyId, id));
       await tx.delete(studyConditions).where(eq(studyConditions.studyId, id));
@@ -196,6 +203,7 @@ export async function savePlan(db: Db, actor: Actor, plan: StudyPlanInput, study
         .$returningId();
     }
     await tx.insert(studyBatches).values(plan.batchIds.map((batchId) => ({ studyId: id!, batchId, labId: actor.labId })));
+    await setResponsibles(tx, actor.labId, id!, responsibleList(plan));
     await tx.insert(studyConditions).values(
       plan.conditions.map((pc, position) => ({
         labId: actor.labId,
@@ -230,7 +238,7 @@ function studyColumns(plan: StudyPlanInput) {
     productId: plan.productId,
     title: plan.title,
     startDate: plan.startDate,
-    responsibleId: plan.responsibleId ?? null,
+    responsibleId: responsibleList(plan)[0] ?? null,
     samplesPerCell: plan.samplesPerCell,
     containerDescription: plan.containerDescription,
     fillGrams: plan.fillGrams ?? null,

@@ -8,6 +8,7 @@ import type { DecisionOutcome } from '@shared/domain';
 import type { Investigation } from '@shared/schemas/oos';
 import type { DecidedStudyItem, DecisionInput, DecisionView, ReviewQueueItem, SubmissionView, SubmitInput } from '@shared/schemas/reviews';
 import { api } from '@/api/client';
+import { formatInstant } from '@/format/dates';
 
 export interface ReviewVariant {
   id: number;
@@ -60,6 +61,15 @@ export function utcText(iso: string): string {
   const t = new Date(iso);
   if (Number.isNaN(t.getTime())) return iso;
   return `${t.toISOString().slice(0, 19).replace('T', ' ')} UTC`;
+}
+
+/**
+ * A signature time as everything else is shown, in lab time with its zone, and the UTC record beside
+ * it: '2026-12-14 10:30 Europe/Berlin (2026-12-14 09:30:12 UTC)'; a lab on UTC gets the UTC text alone.
+ */
+export function signedTimeText(iso: string, lab: { timeZone: string; dateFormat?: string } | null | undefined): string {
+  if (!lab || lab.timeZone === 'UTC') return utcText(iso);
+  return `${formatInstant(iso, lab.timeZone, lab.dateFormat)} ${lab.timeZone} (${utcText(iso)})`;
 }
 
 /** '12 months', '1 month', or a dash. */

@@ -6,6 +6,7 @@
 /** Error keys the builder shows beside a field; anything else goes in the alert above the form. */
 const SHOWN = [
   /^(productId|title|startDate|samplesPerCell|containerDescription|fillGrams|responsibleId|notes)$/,
+  /^responsibleIds(\.\d+)?$/,
   /^batchIds(\.\d+)?$/,
   /^conditions$/,
   /^conditions\.\d+\.(conditionId|role|template|pairControl|pairingOffReason)$/,

@@ -104,7 +104,7 @@ export function paginate<T>(labels: readonly T[], layout: LabelLayout, skip = 0)
   return labels.length ? sheets : [];
 }
 
-/** Lines of text under the code on each label: product, variant (up to two lines), condition, lot, start. */
+/** Lines of text under the code on each label: condition (up to two), product and variant (what room is left), lot, start. */
 export const LABEL_TEXT_LINES = 6;
 
 /** Height the text block needs, pt: the code line (1.1 line height + 0.3 em space) and the other lines at 1.22. */
