@@ -13,7 +13,7 @@ import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { createApp } from '../../server/app';
 import { loadConfig } from '../../server/config';
 import { createDb, createPool } from '../../server/db/client';
-import { auditLog, observations } from '../../server/db/schema';
+import { auditLog, checkpoints, observations } from '../../server/db/schema';
 import { createLogger } from '../../server/log';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 import { Client, createTestApp, DEMO, DEMO_PASSWORD, type TestApp } from '../helpers/app';
@@ -114,6 +114,18 @@ describe('schema and queries on a Galera cluster', () => {
         const code = study.attributes.find((x: { id: number }) => x.id === o.studyAttributeId).code;
         expect((a.newValue as { attribute: string }).attribute).toBe(code);
       }
+
+      // Each save writes its checkpoint's row (settles + 1), even when the checkpoint stays open: on a
+      // cluster, two saves at one checkpoint on two nodes then conflict, and the one retried counts
+      // the other's readings before it decides whether the checkpoint is done.
+      const settles = async () => (await t.db.select({ n: checkpoints.settles }).from(checkpoints).where(eq(checkpoints.id, initial.id)))[0].n;
+      const before = await settles();
+      const other = study.samples.find((s: { id: number; studyConditionId: number | null }) => s.studyConditionId == null && s.id !== sample.id);
+      expect(other, 'a second retained sample at the initial test').toBeTruthy();
+      const again = await technician.put(`/api/samples/${other.code}/checkpoints/${initial.id}/observations`, { entries: [{ studyAttributeId: attr('ph'), value: 5.6 }] });
+      expect(again.status, JSON.stringify(again.body)).toBe(200);
+      expect(await settles()).toBe(before + 1);
+      expect(before).toBeGreaterThanOrEqual(1);
     } finally {
       await close();
       await pool.end();

@@ -191,6 +191,13 @@ export const checkpoints = mysqlTable(
     closedAt: datetime('closed_at', { mode: 'date', fsp: 3 }),
     closedBy: ref('closed_by'),
     amendmentId: ref('amendment_id'),
+    /**
+     * Bumped by every save or correction at this checkpoint (settleCheckpoint). On a Galera cluster
+     * row locks are local to a node, so two saves of the last two samples on two nodes could each
+     * count the other's readings as missing; writing this row puts both in conflict at certification,
+     * the loser is retried (server/db/client.ts) and counts again with the winner's rows in.
+     */
+    settles: int('settles', { unsigned: true }).notNull().default(0),
   },
   (t) => [
     index('checkpoints_lab_due_idx').on(t.labId, t.status, t.dueDate),

@@ -60,10 +60,14 @@ export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId:
       .where(and(eq(observations.checkpointId, checkpointId), eq(observations.voided, false)));
   }
   const complete = Number(sampleCount) > 0 && Number(recorded) >= Number(sampleCount) * Number(attrCount);
+  // Always one write to the checkpoint row, so concurrent saves on two cluster nodes conflict (see checkpoints.settles).
+  const settles = sql`${checkpoints.settles} + 1`;
   if (complete && cp.status === 'open') {
-    await tx.update(checkpoints).set({ status: 'done', closedAt: new Date(), closedBy: userId }).where(eq(checkpoints.id, checkpointId));
+    await tx.update(checkpoints).set({ status: 'done', closedAt: new Date(), closedBy: userId, settles }).where(eq(checkpoints.id, checkpointId));
   } else if (!complete && cp.status === 'done') {
-    await tx.update(checkpoints).set({ status: 'open', closedAt: null, closedBy: null }).where(eq(checkpoints.id, checkpointId));
+    await tx.update(checkpoints).set({ status: 'open', closedAt: null, closedBy: null, settles }).where(eq(checkpoints.id, checkpointId));
+  } else {
+    await tx.update(checkpoints).set({ settles }).where(eq(checkpoints.id, checkpointId));
   }
 }
 

@@ -1,0 +1,1 @@
+ALTER TABLE `checkpoints` ADD `settles` int unsigned DEFAULT 0 NOT NULL;
