@@ -34,6 +34,9 @@ export default defineConfig({
     chunkSizeWarningLimit: 800,
   },
   test: {
+    // Vitest's default on a 2-core machine is one worker; the API files wait on MariaDB and the browser
+    // files on Chromium, so two run side by side (the browser files one after another among themselves).
+    maxWorkers: 2,
     projects: [
       {
         extends: true,
@@ -45,7 +48,24 @@ export default defineConfig({
           name: 'api',
           include: ['tests/api/**/*.test.ts'],
           environment: 'node',
-          globalSetup: ['tests/setup/database.ts', 'tests/setup/tools.ts'],
+          // Each file makes its own database and app (tests/helpers/app.ts), so the module graph is
+          // shared between files: importing the server again for each file took half the run.
+          isolate: false,
+          globalSetup: ['tests/setup/database.ts', 'tests/setup/tools.ts', 'tests/setup/s3.ts'],
+          testTimeout: 30_000,
+          hookTimeout: 60_000,
+        },
+      },
+      {
+        // The upload, photo and chamber-log tests again with the files in S3 (s3rver): tests/helpers/app.ts.
+        extends: true,
+        test: {
+          name: 'api-s3',
+          include: ['tests/api/photos.test.ts', 'tests/api/storage.test.ts', 'tests/api/uploads.test.ts'],
+          environment: 'node',
+          env: { KEEPWELL_TEST_FILES: 's3' },
+          isolate: false,
+          globalSetup: ['tests/setup/database.ts', 'tests/setup/tools.ts', 'tests/setup/s3.ts'],
           testTimeout: 30_000,
           hookTimeout: 60_000,
         },
@@ -59,7 +79,11 @@ export default defineConfig({
           globalSetup: ['tests/setup/database.ts', 'tests/setup/browser.ts'],
           testTimeout: 90_000,
           hookTimeout: 120_000,
+          // One file at a time (Chromium takes a core), after the other projects when all run in one
+          // process; npm test runs this project in a vitest of its own beside the API tests (tests/run.ts).
           fileParallelism: false,
+          sequence: { groupOrder: 1 },
+          isolate: false,
         },
       },
     ],
