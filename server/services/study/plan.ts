@@ -1,7 +1,6 @@
 /** Study plans: checks against the lab's data, the preview (calendar, readings, warnings), saving a draft. */
 import { and, asc, eq, inArray } from 'drizzle-orm';
-import { CRITERION_KINDS_BY_ATTRIBUTE } from '../../../shared/compute/criteria';
-import { dayZeroAllowed, isDayZero, pullGapWarnings, readingCounts, studyCalendar, type ControlPull } from '../../../shared/compute/study-calendar';
+import { pullGapWarnings, readingCounts, studyCalendar, type ControlPull } from '../../../shared/compute/study-calendar';
 import { addDays } from '../../../shared/compute/schedule';
 import type { ConditionKind } from '../../../shared/domain';
 import { cautionLines } from '../../../shared/storage-presets';
@@ -11,6 +10,7 @@ import { attributes, batches, products, storageConditions, studies, studyAttribu
 import { conflict, HttpError, notFound } from '../../http/errors';
 import { audit } from '../audit';
 import { bad, cycleHoursOf, type Actor } from './common';
+import { checkConditionsAndAttributes, firstRepeat } from './plan-checks';
 import { responsibleList, responsiblesOf, setResponsibles } from './responsibles';
 
 export interface CheckedPlan {
@@ -28,7 +28,6 @@ export async function checkPlan(db: DbOrTx, labId: number, plan: StudyPlanInput)
   if (!product) throw new HttpError(404, 'not_found', 'No such product in your lab', { productId: 'No such product in your lab' });
 
   const fields: Record<string, string> = {};
-  const dupes = (ids: (number | string)[]) => ids.findIndex((v, i) => ids.indexOf(v) !== i);
 
   const batchRows = await db
     .select({ id: batches.id, productId: variants.productId })
@@ -40,55 +39,9 @@ export async function checkPlan(db: DbOrTx, labId: number, plan: StudyPlanInput)
     if (!row) fields[`batchIds.${i}`] = 'No such batch in your lab';
     else if (row.productId !== product.id) fields[`batchIds.${i}`] = 'This batch is of another product';
   });
-  if (dupes(plan.batchIds) >= 0) fields[`batchIds.${dupes(plan.batchIds)}`] = 'Listed twice';
+  if (firstRepeat(plan.batchIds) >= 0) fields[`batchIds.${firstRepeat(plan.batchIds)}`] = 'Listed twice';
 
-  const conditionIds = plan.conditions.map((c) => c.conditionId);
-  const conditionRows = await db
-    .select()
-    .from(storageConditions)
-    .where(and(eq(storageConditions.labId, labId), inArray(storageConditions.id, conditionIds)));
-  plan.conditions.forEach((pc, i) => {
-    const row = conditionRows.find((c) => c.id === pc.conditionId);
-    if (!row) {
-      fields[`conditions.${i}.conditionId`] = 'No such storage condition in your lab';
-      return;
-    }
-    if (!row.active) fields[`conditions.${i}.conditionId`] = 'This storage condition is no longer in use';
-    const cycleHours = cycleHoursOf(row);
-    pc.offsets.forEach((o, j) => {
-      if (o.unit === 'cycle' && cycleHours == null) {
-        fields[`conditions.${i}.offsets.${j}.unit`] = 'Cycle checkpoints need a cycling condition (freeze-thaw)';
-      } else if (isDayZero(o) && !dayZeroAllowed(row.kind)) {
-        fields[`conditions.${i}.offsets.${j}`] = 'Day 0 is the initial test, done once per batch for the whole study: remove it here';
-      }
-    });
-    const keys = pc.offsets.map((o) => `${o.unit}:${o.n}`);
-    const d = dupes(keys);
-    if (d >= 0) fields[`conditions.${i}.offsets.${d}`] = 'This checkpoint is listed twice';
-    if (pc.role === 'control' && !pc.pairControl) fields[`conditions.${i}.pairControl`] = 'The control is what the pulls are paired with';
-  });
-  if (dupes(conditionIds) >= 0) fields[`conditions.${dupes(conditionIds)}.conditionId`] = 'Listed twice';
-
-  const attributeIds = plan.attributes.map((a) => a.attributeId);
-  const attributeRows = await db
-    .select()
-    .from(attributes)
-    .where(and(eq(attributes.labId, labId), inArray(attributes.id, attributeIds)));
-  plan.attributes.forEach((pa, i) => {
-    const row = attributeRows.find((a) => a.id === pa.attributeId);
-    if (!row) {
-      fields[`attributes.${i}.attributeId`] = 'No such attribute in your lab';
-      return;
-    }
-    if (!CRITERION_KINDS_BY_ATTRIBUTE[row.kind].includes(pa.criterion.kind)) {
-      fields[`attributes.${i}.criterion.kind`] = `A ${row.kind.replace('_', '/')} attribute cannot use this kind of criterion`;
-    }
-    const c = pa.criterion;
-    if (c.kind === 'worst_grade' && row.scale && !row.scale.some((s) => s.grade === c.grade)) {
-      fields[`attributes.${i}.criterion.grade`] = 'Not a grade of this attribute’s scale';
-    }
-  });
-  if (dupes(attributeIds) >= 0) fields[`attributes.${dupes(attributeIds)}.attributeId`] = 'Listed twice';
+  const { conditionRows, attributeRows } = await checkConditionsAndAttributes(db, labId, plan, fields, { prefix: '', inUseOnly: true });
 
   const people = responsibleList(plan);
   if (people.length) {

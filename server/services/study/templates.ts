@@ -3,7 +3,6 @@
  * from a study, and the plan drafts a new study starts from (a template, or a copy of a previous study).
  */
 import { and, asc, eq, inArray } from 'drizzle-orm';
-import { CRITERION_KINDS_BY_ATTRIBUTE } from '../../../shared/compute/criteria';
 import { dayZeroAllowed, isDayZero } from '../../../shared/compute/study-calendar';
 import type { PlanDraft, PlanDraftResponse, StudyTemplateInput, StudyTemplateSummary, TemplatePlan } from '../../../shared/schemas/templates';
 import type { Db, DbOrTx } from '../../db/client';
@@ -12,6 +11,7 @@ import { conflict, notFound } from '../../http/errors';
 import { audit } from '../audit';
 import { isDuplicateKey } from '../formulas';
 import { bad, cycleHoursOf, type Actor } from './common';
+import { checkConditionsAndAttributes } from './plan-checks';
 import { planOf } from './plan';
 
 const iso = (d: Date | string) => (d instanceof Date ? d : new Date(d)).toISOString();
@@ -20,36 +20,8 @@ const DUPLICATE_NAME = 'Your lab already has a template with this name';
 /** Checks a template's conditions and attributes against the lab: 400/404 naming the field (plan.conditions.0.conditionId...). */
 async function checkTemplatePlan(db: DbOrTx, labId: number, plan: TemplatePlan): Promise<void> {
   const fields: Record<string, string> = {};
-  const dupes = (ids: (number | string)[]) => ids.findIndex((v, i) => ids.indexOf(v) !== i);
-  const conditionIds = plan.conditions.map((c) => c.conditionId);
-  const conditionRows = await db
-    .select()
-    .from(storageConditions)
-    .where(and(eq(storageConditions.labId, labId), inArray(storageConditions.id, conditionIds)));
-  plan.conditions.forEach((pc, i) => {
-    const row = conditionRows.find((c) => c.id === pc.conditionId);
-    if (!row) {
-      fields[`plan.conditions.${i}.conditionId`] = 'No such storage condition in your lab';
-      return;
-    }
-    pc.offsets.forEach((o, j) => {
-      if (o.unit === 'cycle' && cycleHoursOf(row) == null) fields[`plan.conditions.${i}.offsets.${j}.unit`] = 'Cycle checkpoints need a cycling condition (freeze-thaw)';
-      else if (isDayZero(o) && !dayZeroAllowed(row.kind)) fields[`plan.conditions.${i}.offsets.${j}`] = 'Day 0 is the initial test, done once per batch for the whole study: remove it here';
-    });
-    if (pc.role === 'control' && !pc.pairControl) fields[`plan.conditions.${i}.pairControl`] = 'The control is what the pulls are paired with';
-  });
-  if (dupes(conditionIds) >= 0) fields[`plan.conditions.${dupes(conditionIds)}.conditionId`] = 'Listed twice';
-
-  const attributeIds = plan.attributes.map((a) => a.attributeId);
-  const attributeRows = await db.select().from(attributes).where(and(eq(attributes.labId, labId), inArray(attributes.id, attributeIds)));
-  plan.attributes.forEach((pa, i) => {
-    const row = attributeRows.find((a) => a.id === pa.attributeId);
-    if (!row) fields[`plan.attributes.${i}.attributeId`] = 'No such attribute in your lab';
-    else if (!CRITERION_KINDS_BY_ATTRIBUTE[row.kind].includes(pa.criterion.kind)) {
-      fields[`plan.attributes.${i}.criterion.kind`] = `A ${row.kind.replace('_', '/')} attribute cannot use this kind of criterion`;
-    }
-  });
-  if (dupes(attributeIds) >= 0) fields[`plan.attributes.${dupes(attributeIds)}.attributeId`] = 'Listed twice';
+  // A template may keep a condition taken out of use: starting a study from it names it then.
+  await checkConditionsAndAttributes(db, labId, plan, fields, { prefix: 'plan.', inUseOnly: false });
   if (Object.keys(fields).length) throw bad(fields);
 }
 
