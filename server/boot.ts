@@ -10,6 +10,8 @@ import { createDb, createPool, type Db, type DbTarget, type Pool } from './db/cl
 import { grantAppAccount } from './db/grants';
 import { launchMariaDb, type LaunchedMariaDb } from './db/mariadb';
 import { assertSchemaCurrent, runMigrations } from './db/migrate';
+import { databaseIsEmpty, seedDemo } from './demo/seed';
+import { openFileStore, type FileStore } from './files';
 import type { Logger } from './log';
 
 export interface Database {
@@ -94,4 +96,22 @@ export function sessionSecret(config: Config): string {
   const secret = randomBytes(32).toString('base64url');
   writeFileSync(file, secret, { mode: 0o600 });
   return secret;
+}
+
+/**
+ * Photos and chamber-log files (DATA_DIR/uploads, or the bucket of S3_BUCKET, checked by a write, read
+ * and delete; a failed check stops the process with its message), then the demo labs into an empty
+ * database when LOAD_DEMO is auto.
+ */
+export async function openFilesAndDemo(config: Config, log: Logger, database: Database): Promise<FileStore> {
+  const files = await openFileStore(config).catch(async (err: Error) => {
+    log.error(err.message);
+    await database.close();
+    process.exit(1);
+  });
+  if (config.LOAD_DEMO === 'auto' && (await databaseIsEmpty(database.db))) {
+    await seedDemo(database.db, { content: 'full', files });
+    log.info('Loaded the demo labs (invented data).');
+  }
+  return files;
 }

@@ -7,11 +7,9 @@ import cluster from 'node:cluster';
 import { performance } from 'node:perf_hooks';
 import type { Server } from 'node:http';
 import { createApp } from './app';
-import { openDatabase, sessionSecret } from './boot';
+import { openDatabase, openFilesAndDemo, sessionSecret } from './boot';
 import { loadConfig } from './config';
 import { DEMO_LABS, DEMO_PASSWORD } from './demo/people';
-import { databaseIsEmpty, seedDemo } from './demo/seed';
-import { openFileStore } from './files';
 import { createLogger } from './log';
 import { mailerFor, outboxAvailable } from './mail/mailer';
 import { startReminderJob, type ReminderJob } from '../jobs/reminders';
@@ -24,17 +22,8 @@ if (worker && !config.DATABASE_URL) throw new Error('A worker process needs DATA
 
 const database = await openDatabase(config, log, { migrate: !worker });
 const { db, pool } = database;
-// Photos and chamber-log files: DATA_DIR/uploads, or the bucket of S3_BUCKET (checked: write, read, delete).
-const files = await openFileStore(config).catch(async (err: Error) => {
-  log.error(err.message);
-  await database.close();
-  process.exit(1);
-});
-
-if (config.LOAD_DEMO === 'auto' && (await databaseIsEmpty(db))) {
-  await seedDemo(db, { content: 'full', files });
-  log.info('Loaded the demo labs (invented data).');
-}
+// Photos and chamber-log files (a folder or an S3 bucket), and the demo labs into an empty database.
+const files = await openFilesAndDemo(config, log, database);
 
 // E-mail: the SMTP service from the settings, or a local fake one that keeps messages in MariaDB.
 const mailer = mailerFor({ db, config, log });

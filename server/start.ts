@@ -12,12 +12,10 @@ import cluster, { type Worker } from 'node:cluster';
 import { availableParallelism } from 'node:os';
 import { performance } from 'node:perf_hooks';
 import { fileURLToPath } from 'node:url';
-import { openDatabase, sessionSecret } from './boot';
+import { openDatabase, openFilesAndDemo, sessionSecret } from './boot';
 import { loadConfig, type Config } from './config';
 import type { ConnectionTarget } from './db/mariadb';
 import { DEMO_LABS, DEMO_PASSWORD } from './demo/people';
-import { databaseIsEmpty, seedDemo } from './demo/seed';
-import { openFileStore } from './files';
 import { createLogger } from './log';
 import { mailerFor, outboxAvailable } from './mail/mailer';
 import { startReminderJob, type ReminderJob } from '../jobs/reminders';
@@ -48,15 +46,8 @@ async function runPrimary(): Promise<void> {
   const log = createLogger();
   const database = await openDatabase(config, log);
   const { db } = database;
-  const files = await openFileStore(config).catch(async (err: Error) => {
-    log.error(err.message);
-    await database.close();
-    process.exit(1);
-  });
-  if (config.LOAD_DEMO === 'auto' && (await databaseIsEmpty(db))) {
-    await seedDemo(db, { content: 'full', files });
-    log.info('Loaded the demo labs (invented data).');
-  }
+  // The primary checks the file store and loads the demo once; the workers only open the store.
+  await openFilesAndDemo(config, log, database);
   // Made here once, so the workers read the same secret instead of racing to create it.
   sessionSecret(config);
 
