@@ -293,10 +293,12 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
   }
 
   // ---------------------------------------------------------------- first failure per variant and condition
+  const initialCheckpoints = new Set(obs.filter((x) => x.cp.kind === 'initial').map((x) => x.cp.id));
   const firstFailures: StudyAnalysis['firstFailures'] = [];
   for (const v of variants) {
     for (const c of d.conditions) {
-      const fails = seriesVC(`${v.id}:${c.id}`)
+      const own = seriesVC(`${v.id}:${c.id}`);
+      const fails = own
         .flatMap((x) => x.points.filter((p) => p.verdict === 'fail').map((p) => ({ p, attr: attrOf.get(x.studyAttributeId)!.a.name, position: attrPosition.get(x.studyAttributeId)! })));
       const first = fails.sort((a, b) => a.p.months - b.p.months)[0];
       firstFailures.push({
@@ -306,13 +308,15 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
         months: first?.p.months ?? null,
         // In the study's attribute order.
         attributes: first ? [...new Set(fails.filter((f) => f.p.months === first.p.months).sort((x, y) => x.position - y.position).map((f) => f.attr))] : [],
+        // Judged readings of the condition's own pulls, as the gates count them: the initial test is
+        // no result of the condition, so a condition with none says "no results yet", not "no failures".
+        dataPoints: own.reduce((n, x) => n + x.points.filter((p) => !initialCheckpoints.has(p.checkpointId) && (p.verdict === 'pass' || p.verdict === 'fail')).length, 0),
       });
     }
   }
 
   // ---------------------------------------------------------------- suggestion per variant
   const realTimeCold = d.conditions.some((c) => c.role === 'real_time' && c.setpointC != null && c.setpointC <= 8);
-  const initialCheckpoints = new Set(obs.filter((x) => x.cp.kind === 'initial').map((x) => x.cp.id));
   const suggestions = variants.map((v) => {
     const conditions: SuggestCondition[] = d.conditions.map((c) => ({
       name: c.name,

@@ -91,6 +91,8 @@ export interface FirstFailure {
   label: string | null;
   months: number | null;
   attributes: string[];
+  /** Judged (pass or fail) readings after the initial test: 0 means no results yet, not "no failures". */
+  dataPoints: number;
 }
 
 export interface StudyAnalysis {

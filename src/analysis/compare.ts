@@ -126,12 +126,18 @@ function firstFailureAsOf(a: StudyAnalysis, variantId: number, conditionId: numb
     .filter((x) => x.variantId === variantId && x.studyConditionId === conditionId)
     .flatMap((x) => x.points.filter((p) => p.verdict === 'fail' && upTo(asOf)(p)).map((p) => ({ p, attr: a.attributes.find((y) => y.id === x.studyAttributeId)?.name ?? '' })));
   const first = fails.sort((x, y) => x.p.months - y.p.months)[0];
+  // The server's count less the judged readings after `asOf`: those are never the initial test (at 0 months).
+  const later = a.series
+    .filter((x) => x.variantId === variantId && x.studyConditionId === conditionId)
+    .reduce((n, x) => n + x.points.filter((p) => isNum(p.months) && p.months > asOf + 1e-9 && (p.verdict === 'pass' || p.verdict === 'fail')).length, 0);
+  const all = a.firstFailures.find((f) => f.variantId === variantId && f.studyConditionId === conditionId)?.dataPoints ?? 0;
   return {
     variantId,
     studyConditionId: conditionId,
     label: first?.p.label ?? null,
     months: first?.p.months ?? null,
     attributes: first ? [...new Set(fails.filter((f) => f.p.months === first.p.months).map((f) => f.attr))] : [],
+    dataPoints: Math.max(0, all - later),
   };
 }
 

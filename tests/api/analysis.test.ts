@@ -78,6 +78,7 @@ describe('study analysis', () => {
     expect(sB.months).toBe(3);
     const ff = a.firstFailures.find((f: { variantId: number; studyConditionId: number }) => f.variantId === vB.id && f.studyConditionId === a.conditions[1].id);
     expect(ff).toMatchObject({ label: 'Week 8', attributes: ['Separation'] });
+    expect(ff.dataPoints).toBeGreaterThan(0);
     expect(a.series.length).toBeGreaterThan(0);
     expect(a.limits.find((l: { variantId: number }) => l.variantId === vA.id).limit).toMatchObject({ lower: 5, upper: 6 });
   });

@@ -68,6 +68,10 @@ describe('a study with no readings yet', () => {
       expect(r.confidenceNote).not.toMatch(/No figure yet/);
       expect(r.confidenceNote).toMatch(/^No results yet/);
     }
+    // The review page's first failure per condition counts the readings, so it can say "no results yet" too.
+    const ff: { studyConditionId: number; label: string | null; dataPoints: number }[] = res.body.analysis.firstFailures;
+    expect(ff.length).toBeGreaterThan(0);
+    for (const f of ff) expect(f).toMatchObject({ label: null, dataPoints: 0 });
   });
 });
 
@@ -95,6 +99,10 @@ describe('a study submitted, then decided, with pulls never taken', () => {
       expect(gateSummary(r.reasons, 'stress')).toMatch(/^Stress tests: no results yet \(Freeze-thaw \d+\)\.$/);
       expect(gateSummary(r.reasons, 'control')).toMatch(/^Control: no results yet \(4 °C control \d+\)\.$/);
     }
+    // Nor is it a reading of the condition in the first failure per condition.
+    const ff: { dataPoints: number }[] = (await formulator.get(`/api/studies/${s.id}/analysis`)).body.analysis.firstFailures;
+    expect(ff.length).toBeGreaterThan(0);
+    for (const f of ff) expect(f.dataPoints).toBe(0);
   });
 
   it('once submitted for review it has nothing overdue at the bench', async () => {

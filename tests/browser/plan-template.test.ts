@@ -1,8 +1,8 @@
 /**
  * Plans from templates (issue #20): the plan builder ticks the checks of the product's type; a
- * formulator saves a plan as a whole-study template and starts a new study from it, then copies
- * that study for the next one. Also the attribute sets on the library page, a batch's raw-material
- * lots and its printable sheet. Screenshots at desktop, tablet (1024 x 768) and phone (390 x 844)
+ * formulator saves a plan as a whole-study template and starts a new study from it (at tablet and
+ * phone sizes), then copies that study for the next one. Also the attribute sets on the library
+ * page, a batch's raw-material lots and its printable sheet. Screenshots at desktop, tablet (1024 x 768) and phone (390 x 844)
  * go to test-results/screenshots. Invented lab data.
  */
 import { join } from 'node:path';
@@ -124,50 +124,59 @@ describe('plans from templates', () => {
     await page.close();
   });
 
-  it('starts a new study from the whole-study template (tablet 1024 x 768)', async () => {
-    const page = await rig.browser.newPage({ viewport: TABLET });
-    const problems = watchPage(page);
-    await signInSettled(page, rig.baseUrl, DEMO.formulator);
-    await page.goto(`${rig.baseUrl}/studies/new`);
-    await page.getByTestId('start-kind-template').click();
-    await choose(page, 'start-template', 'Balm, 12 weeks at 40 °C', false);
-    await expect.poll(() => page.getByTestId('start-applied').textContent()).toContain('Balm, 12 weeks at 40 °C');
-    // The template's conditions and checkpoints, container and criteria are in the plan.
-    await expect.poll(() => page.getByTestId(`plan-condition-${oven}`).locator('.el-checkbox').first().getAttribute('class')).toContain('is-checked');
-    expect(await page.getByTestId(`plan-condition-${fridge}`).locator('.el-checkbox').first().getAttribute('class')).toContain('is-checked');
-    expect(await input(page, 'plan-container').inputValue()).toBe('15 mL aluminium tin');
-    await page.evaluate(() => window.scrollTo(0, 0));
-    await page.waitForTimeout(200);
-    await page.screenshot({ path: join(SHOTS, 'plan-from-template-tablet.png') });
+  // At both bench sizes; the later tests use the study started last.
+  for (const [name, viewport] of [
+    ['tablet 1024 x 768', TABLET],
+    ['phone 390 x 844', PHONE],
+  ] as const) {
+    it(`starts a new study from the whole-study template (${name})`, async () => {
+      const page = await rig.browser.newPage({ viewport });
+      const problems = watchPage(page);
+      await signInSettled(page, rig.baseUrl, DEMO.formulator);
+      await page.goto(`${rig.baseUrl}/studies/new`);
+      await page.getByTestId('start-kind-template').click();
+      await choose(page, 'start-template', 'Balm, 12 weeks at 40 °C', false);
+      await expect.poll(() => page.getByTestId('start-applied').textContent()).toContain('Balm, 12 weeks at 40 °C');
+      // The template's conditions and checkpoints, container and criteria are in the plan.
+      await expect.poll(() => page.getByTestId(`plan-condition-${oven}`).locator('.el-checkbox').first().getAttribute('class')).toContain('is-checked');
+      expect(await page.getByTestId(`plan-condition-${fridge}`).locator('.el-checkbox').first().getAttribute('class')).toContain('is-checked');
+      expect(await input(page, 'plan-container').inputValue()).toBe('15 mL aluminium tin');
+      await page.evaluate(() => window.scrollTo(0, 0));
+      await page.waitForTimeout(200);
+      await page.screenshot({ path: join(SHOTS, `plan-from-template-${name.split(' ')[0]}.png`) });
 
-    // The formulator picks the product, the batches and the start date (today).
-    await choose(page, 'plan-product', balm.name);
-    for (const id of balm.batchIds) await page.getByTestId(`plan-batch-${id}`).click();
-    await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe(String(balm.batchIds.length * 3));
-    // The template's attributes stay (the product's set does not replace them).
-    expect(await page.getByTestId('plan-attribute-hardness').getAttribute('class')).toContain('on');
-    expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(TABLET.width);
+      // The formulator picks the product, the batches and the start date (today).
+      await choose(page, 'plan-product', balm.name);
+      for (const id of balm.batchIds) await page.getByTestId(`plan-batch-${id}`).click();
+      await expect.poll(() => page.getByTestId('preview-samples').textContent(), { timeout: 10_000 }).toBe(String(balm.batchIds.length * 3));
+      // The template's attributes stay (the product's set does not replace them).
+      expect(await page.getByTestId('plan-attribute-hardness').getAttribute('class')).toContain('on');
+      expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(viewport.width);
 
-    await page.getByTestId('plan-start-study').click();
-    await page.getByTestId('start-confirm').waitFor();
-    await page.waitForTimeout(400);
-    await page.getByTestId('start-confirm').click();
-    await page.waitForURL(/\/studies\/\d+$/);
-    studyId = Number(/\/studies\/(\d+)$/.exec(page.url())![1]);
+      await page.getByTestId('plan-start-study').click();
+      await page.getByTestId('start-confirm').waitFor();
+      await page.waitForTimeout(400);
+      await page.getByTestId('start-confirm').click();
+      await page.waitForURL(/\/studies\/\d+$/);
+      studyId = Number(/\/studies\/(\d+)$/.exec(page.url())![1]);
 
-    const [{ study }, { draft }] = await Promise.all([
-      ok<{ study: { status: string; conditions: { conditionId: number; offsets: unknown[] }[]; attributes: { attributeId: number }[]; containerDescription: string } }>(
-        formulator.get(`/api/studies/${studyId}`),
-      ),
-      ok<{ draft: { conditions: { conditionId: number; offsets: unknown[] }[]; attributes: { attributeId: number }[] } }>(formulator.get(`/api/study-templates/${templateId}/draft`)),
-    ]);
-    expect(study.status).toBe('running');
-    expect(study.conditions.map((c) => [c.conditionId, c.offsets])).toEqual(draft.conditions.map((c) => [c.conditionId, c.offsets]));
-    expect(study.attributes.map((a) => a.attributeId)).toEqual(draft.attributes.map((a) => a.attributeId));
-    expect(study.containerDescription).toBe('15 mL aluminium tin');
-    expect(problems).toEqual([]);
-    await page.close();
-  });
+      const [{ study }, { draft }] = await Promise.all([
+        ok<{ study: { status: string; conditions: { conditionId: number; offsets: unknown[] }[]; attributes: { attributeId: number }[]; containerDescription: string } }>(
+          formulator.get(`/api/studies/${studyId}`),
+        ),
+        ok<{ draft: { conditions: { conditionId: number; offsets: unknown[] }[]; attributes: { attributeId: number }[] } }>(formulator.get(`/api/study-templates/${templateId}/draft`)),
+      ]);
+      expect(study.status).toBe('running');
+      expect(study.conditions.map((c) => [c.conditionId, c.offsets])).toEqual(draft.conditions.map((c) => [c.conditionId, c.offsets]));
+      expect(study.attributes.map((a) => a.attributeId)).toEqual(draft.attributes.map((a) => a.attributeId));
+      expect(study.containerDescription).toBe('15 mL aluminium tin');
+      // The new study's page says so, and fits the screen too.
+      await expect.poll(() => page.getByTestId('study-status').getAttribute('data-status')).toBe('running');
+      expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(viewport.width);
+      expect(problems).toEqual([]);
+      await page.close();
+    });
+  }
 
   it('copies the previous study for the next one: same product and plan, new batches and date (phone 390 x 844)', async () => {
     const page = await rig.browser.newPage({ viewport: PHONE });

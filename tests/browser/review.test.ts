@@ -451,6 +451,8 @@ describe('Release review', () => {
     expect(await page.getByTestId('variant-B').getByTestId('signature-meaning').textContent()).toBe('returned for more testing');
     const detail = (await owner.get(`/api/studies/${study.id}`)).body.study as StudyDetail;
     expect(detail.checkpoints.some((c) => c.label === 'Week 16')).toBe(true);
+    // The PDF button shows a download icon: it downloads the file rather than opening a tab.
+    expect(await page.getByTestId('review-pdf').getAttribute('download')).toBe(`stability-report-${study.id}.pdf`);
     await noBadText(page);
     await page.screenshot({ path: join(SHOTS, 'review-decided-full.png'), fullPage: true });
 
@@ -501,6 +503,7 @@ describe('Release review', () => {
     expect(await report.textContent()).toContain('Calendula'); // formula lines from the lot's snapshot
     expect(await report.getByTestId('investigation-row-conclusion').textContent()).toContain('Confirmed');
     expect(await page.getByTestId('report-pdf').getAttribute('href')).toBe(`/api/studies/${study.id}/report.pdf`);
+    expect(await page.getByTestId('report-pdf').getAttribute('download')).toBe(`stability-report-${study.id}.pdf`);
     expect(await page.getByTestId('report-csv').getAttribute('href')).toBe(`/api/studies/${study.id}/observations.csv`);
     await page.waitForFunction(() => [...document.images].every((i) => i.complete && i.naturalWidth > 0));
     await noBadText(page);

@@ -161,8 +161,9 @@ function fixture(): StudyAnalysis {
       { variantId: 2, studyConditionId: 13, sampleCode: 'B13-1', points: [{ label: 'Initial', months: 0, de76: 0, de00: 0 }, { label: 'Cycle 3', months: 0.2, de76: null, de00: 2.5 }] },
     ],
     firstFailures: [
-      { variantId: 2, studyConditionId: 10, label: 'Week 8', months: W(8), attributes: ['pH', 'Separation'] },
-      { variantId: 1, studyConditionId: 10, label: null, months: null, attributes: [] },
+      // 5 pulls x 2 samples x 3 attributes after the initial test
+      { variantId: 2, studyConditionId: 10, label: 'Week 8', months: W(8), attributes: ['pH', 'Separation'], dataPoints: 30 },
+      { variantId: 1, studyConditionId: 10, label: null, months: null, attributes: [], dataPoints: 30 },
     ],
     suggestions: [
       { variantId: 1, result: suggestion(11) },
@@ -723,6 +724,9 @@ describe('comparison at a checkpoint the user picks', () => {
     // B's separation fails from week 8: not yet at week 4
     expect(hot.rows[1].cells[1]).toMatchObject({ state: 'pass', at: 'Week 4' });
     expect(firstFailureText(hot.firstFailures[1])).toBe('None so far');
+    // its readings by then: weeks 1, 2 and 4 x 2 samples x 3 attributes (the initial test is not counted)
+    expect(hot.firstFailures[1]!.dataPoints).toBe(18);
+    expect(compareMatrix(a, [1, 2], 0).conditions[2].firstFailures[1]!.dataPoints).toBe(0);
     // freeze-thaw was done within the first week: its latest cycle by then
     expect(m.conditions[3].rows[0].cells[0].at).toBe('Cycle 3');
     // at week 8 the first failure is there

@@ -4,16 +4,18 @@
  * formatters, SubmitForm (starts from the suggestion, asks why while checkpoints are open, sends
  * the shared schema's body) and DecisionForm (label dating computed live with the shared
  * labelDating(): best-before at 30 months or less, period after opening above, per EU Regulation
- * 1223/2009 Art. 19(1)(c); ready phrases; the password error beside its field).
+ * 1223/2009 Art. 19(1)(c); ready phrases; the password error beside its field) and VariantEvidence
+ * (a condition without results says so, not "no failures").
  * The server is stubbed here; its own behaviour is covered by tests/api/reviews.test.ts.
  */
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { config, flushPromises, mount } from '@vue/test-utils';
+import { config, flushPromises, mount, RouterLinkStub } from '@vue/test-utils';
 import { createPinia, setActivePinia } from 'pinia';
 import type { StudyDetail } from '../../shared/schemas/studies';
 import DecisionForm from '../../src/components/review/DecisionForm.vue';
 import SubmitForm from '../../src/components/review/SubmitForm.vue';
-import { hashGroups, months, parseCsv, signedTimeText, utcText } from '../../src/components/review/review';
+import VariantEvidence from '../../src/components/review/VariantEvidence.vue';
+import { hashGroups, months, parseCsv, signedTimeText, utcText, type ReviewAnalysis } from '../../src/components/review/review';
 import { useSessionStore } from '../../src/stores/session';
 
 const MOUNT_TIMEOUT = 20_000;
@@ -255,4 +257,24 @@ describe('DecisionForm', () => {
     expect(w.emitted('signed')).toBeUndefined();
     w.unmount();
   }, MOUNT_TIMEOUT);
+});
+
+describe('VariantEvidence', () => {
+  it('says "no results yet" for a condition without readings after the initial test, "no failures" only for one with them', () => {
+    const freezeThaw = { ...study.conditions[0], id: 22, name: 'Freeze-thaw', kind: 'cycling', role: 'stress' };
+    const ff = (studyConditionId: number, dataPoints: number) => ({ variantId: 101, studyConditionId, label: null, months: null, attributes: [], dataPoints });
+    const w = mount(VariantEvidence, {
+      props: {
+        studyId: 5,
+        variant: { id: 101, code: 'A', name: 'Variant A' },
+        study: { ...study, conditions: [...study.conditions, freezeThaw], samples: [] } as unknown as StudyDetail,
+        analysis: { suggestions: [], firstFailures: [ff(21, 12), ff(22, 0)] } as unknown as ReviewAnalysis,
+        photos: [],
+        proposal: null,
+      },
+      global: { stubs: { RouterLink: RouterLinkStub } },
+    });
+    expect(w.findAll('[data-testid="failures"] li').map((li) => li.text())).toEqual(['25 °C: no failures', 'Freeze-thaw: no results yet']);
+    w.unmount();
+  });
 });

@@ -155,7 +155,7 @@ export interface ReviewAnalysis {
     points: { checkpointId: number; label: string; months: number; value: number | string | boolean | null; verdict: string; sampleCode: string }[];
   }[];
   limits: { studyAttributeId: number; variantId: number; limit: { lower: number | null; upper: number | null }; basis: string }[];
-  firstFailures: { variantId: number; studyConditionId: number; label: string | null; months: number | null; attributes: string[] }[];
+  firstFailures: { variantId: number; studyConditionId: number; label: string | null; months: number | null; attributes: string[]; dataPoints: number }[];
   suggestions: { variantId: number; result: SuggestResult }[];
 }
 
