@@ -215,6 +215,6 @@ export interface AuditRow {
   reason: string | null;
   /** The action in the audit vocabulary: "Signed", "Signature refused" (shared/audit-words.ts). */
   actionLabel: string;
-  /** The entry in words, names and values as the screens show them (server/services/audit-text.ts). */
+  /** The entry in words, names and values as the screens show them (server/services/audit-text/). */
   sentence: string;
 }

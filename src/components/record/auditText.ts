@@ -1,6 +1,6 @@
 /**
  * Client helpers for the owner's audit trail. The entry's sentence and its action label come from the
- * server (server/services/audit-text.ts, shared/audit-words.ts); here: the time in the lab's zone and
+ * server (server/services/audit-text/, shared/audit-words.ts); here: the time in the lab's zone and
  * the raw record as stored, for the "Raw record" view. Pure; no I/O.
  */
 import type { AuditRow } from '@shared/schemas/records';
