@@ -54,7 +54,7 @@ const vitest = (report: string, projects: string[]) => [
  * With arguments (a file filter, -t) all browser files run in one vitest.
  */
 const browserFiles = readdirSync('tests/browser').filter((f) => f.endsWith('.test.ts')).sort();
-const SECOND_HALF = new Set(['plan-template', 'bench', 'shell', 'formulas', 'record', 'invitation'].map((n) => `${n}.test.ts`));
+const SECOND_HALF = new Set(['plan-template', 'bench', 'shell', 'formulas'].map((n) => `${n}.test.ts`));
 const halves = args.length
   ? [[] as string[]]
   : [browserFiles.filter((f) => !SECOND_HALF.has(f)), browserFiles.filter((f) => SECOND_HALF.has(f))].map((h) => h.map((f) => `tests/browser/${f}`));
