@@ -13,7 +13,7 @@ import { closeMailerFor } from '../../server/mail/mailer';
 import { renderMail } from '../../server/mail/templates';
 import { accountWorkSettled } from '../../server/routes/account';
 import { DEMO } from '../helpers/app';
-import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { SHOTS, VIEWPORTS, benchSettled, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
 
 let rig: BrowserRig;
 beforeAll(async () => {
@@ -93,9 +93,11 @@ describe('invitations in the browser', () => {
     await p2.waitForTimeout(400); // the error's fade-in
     await p2.screenshot({ path: join(SHOTS, 'accept-invitation-tablet.png') });
     await p2.getByTestId('password').fill('copper kettle by the window');
-    await p2.getByTestId('accept').click();
     // Signed in at once with the password just chosen: straight to the Bench, no second sign-in.
-    await p2.waitForURL(/\/bench$/);
+    await benchSettled(p2, async () => {
+      await p2.getByTestId('accept').click();
+      await p2.waitForURL(/\/bench$/);
+    });
     const links = await p2.locator('nav[aria-label="Main"] a').allTextContents();
     expect(links.map((l) => l.trim())).toEqual(['Bench', 'Studies', 'Formulas', 'Storage']);
     expect(await p2.locator('.who-name').textContent()).toBe('Inès Moreau');

@@ -79,29 +79,45 @@ export async function signInAs(page: Page, baseUrl: string, email: string) {
   await page.waitForURL(/\/bench$/);
 }
 
-/** Signs in and lets the Bench finish loading, so navigating away at once aborts no request (which watchPage would report). */
-export async function signInSettled(page: Page, baseUrl: string, email: string) {
-  // Not waitForLoadState('networkidle'): the sign-in page reached it already and a client-side route
-  // change starts no new load, so it could return before the Bench asked for anything. Instead: wait
-  // for the Bench's own data, then until no request has been in flight for 300 ms.
+/**
+ * Counts the page's requests from now on; `quiet()` resolves once none has been in flight for 300 ms
+ * (at most 15 s) and stops counting. Not waitForLoadState('networkidle'): a client-side route change
+ * starts no new load, so that can return before the new view has asked for anything.
+ */
+export function trackRequests(page: Page): { quiet(): Promise<void> } {
   const pending = new Set<unknown>();
   const add = (r: unknown) => pending.add(r);
   const drop = (r: unknown) => pending.delete(r);
   page.on('request', add);
   page.on('requestfinished', drop);
   page.on('requestfailed', drop);
+  return {
+    async quiet() {
+      let quietSince = Date.now();
+      for (const end = Date.now() + 15_000; Date.now() < end; ) {
+        if (pending.size > 0) quietSince = Date.now();
+        else if (Date.now() - quietSince >= 300) break;
+        await page.waitForTimeout(50);
+      }
+      page.off('request', add);
+      page.off('requestfinished', drop);
+      page.off('requestfailed', drop);
+    },
+  };
+}
+
+/** Waits until the Bench, just reached, has its data and no request in flight, so navigating away aborts nothing. */
+export async function benchSettled(page: Page, reach: () => Promise<unknown>) {
+  const requests = trackRequests(page);
   const bench = page.waitForResponse((r) => new URL(r.url()).pathname === '/api/bench', { timeout: 30_000 });
-  await signInAs(page, baseUrl, email);
+  await reach();
   await bench;
-  let quietSince = Date.now();
-  for (const end = Date.now() + 15_000; Date.now() < end; ) {
-    if (pending.size > 0) quietSince = Date.now();
-    else if (Date.now() - quietSince >= 300) break;
-    await page.waitForTimeout(50);
-  }
-  page.off('request', add);
-  page.off('requestfinished', drop);
-  page.off('requestfailed', drop);
+  await requests.quiet();
+}
+
+/** Signs in and lets the Bench finish loading, so navigating away at once aborts no request (which watchPage would report). */
+export async function signInSettled(page: Page, baseUrl: string, email: string) {
+  await benchSettled(page, () => signInAs(page, baseUrl, email));
 }
 
 /** The WCAG 2.1 A and AA rules of axe-core (Deque's engine, pinned in package.json). */
