@@ -32,6 +32,8 @@ export interface BenchContext {
   pool: Pool;
   db: Db;
   data: BenchDataset;
+  /** Adds a goal measured in setup to the goals listed under the table. */
+  goalResult(r: GoalResult): void;
   /** Signs in through the API and returns the Cookie header value. */
   signIn(email: string, password?: string): Promise<string>;
   log(line: string): void;
@@ -50,6 +52,32 @@ export interface HttpLoad {
   note?: string;
   /** Seconds per measured run for this scenario (HTTP and raw), when one request takes seconds. */
   seconds?: number;
+  /** More connection counts to run the same load (and its raw loads) at, after `connections`. */
+  alsoAt?: number[];
+  /** What this route should reach; checked after each run and listed under the table (see Goal). */
+  goal?: Goal;
+}
+
+/**
+ * A route's goal, checked per connection count. `ratio` compares app req/s with the raw load whose name
+ * contains `against` (default: the scenario's last raw load); p50Max/p99Max in ms; `latencyAt` limits a
+ * latency goal to some connection counts.
+ */
+export interface Goal {
+  ratio?: number;
+  against?: string;
+  p50Max?: number;
+  p99Max?: number;
+  latencyAt?: number[];
+}
+
+/** A goal measured once in a scenario's setup (an upload timed once, say), listed with the others. */
+export interface GoalResult {
+  scenario: string;
+  what: string;
+  measured: string;
+  goal: string;
+  met: boolean;
 }
 
 export interface RawLoad {

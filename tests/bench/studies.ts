@@ -128,6 +128,8 @@ export function benchScenario(): Scenario {
     request() {
       return {
         connections: 10,
+        alsoAt: [50],
+        goal: { ratio: 0.6, against: 'all 7', p99Max: 100, latencyAt: [10] },
         note: `${sessions.length} members of the history lab signed in; connection i sends member i's session. Lab day ${today}, 7 days ahead.`,
         requests: [{ method: 'GET', path: '/api/bench', setupRequest: perConnection(sessions) }],
       };
@@ -249,6 +251,7 @@ export function recordScenario(): Scenario {
       const assign = perConnection(sessions);
       return {
         connections: 10,
+        goal: { ratio: 0.5, p99Max: 150 },
         note: `${sessions.length} technicians signed in, one per connection; each request saves a different sample at a checkpoint due today (${cells.length - next} pairs left).`,
         requests: [
           {
@@ -351,6 +354,7 @@ export function analysisScenario(): Scenario {
     request() {
       return {
         connections: 1,
+        goal: { p50Max: 20 },
         note: 'One connection: p50 is the median time of one full analysis as a formulator waits for it.',
         requests: [{ method: 'GET', path: `/api/studies/${studyId}/analysis`, setupRequest: perConnection(sessions) }],
       };
