@@ -58,6 +58,9 @@ export function createApp(deps: AppDeps) {
   const { db, pool, config, log } = deps;
   const app = express();
   app.disable('x-powered-by');
+  // Every API answer is Cache-Control: no-store, so an ETag (a SHA-1 of each JSON body) is never used;
+  // the built client's files keep theirs (express.static sets its own).
+  app.set('etag', false);
   app.set('trust proxy', config.TRUST_PROXY);
 
   app.use(
