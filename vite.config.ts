@@ -4,6 +4,8 @@ import vue from '@vitejs/plugin-vue';
 import AutoImport from 'unplugin-auto-import/vite';
 import Components from 'unplugin-vue-components/vite';
 import { ElementPlusResolver } from 'unplugin-vue-components/resolvers';
+import { VitePWA } from 'vite-plugin-pwa';
+import { pwaOptions } from './build/pwa.js';
 
 const inVitest = Boolean(process.env.VITEST);
 
@@ -18,6 +20,8 @@ export default defineConfig({
       resolvers: [ElementPlusResolver({ importStyle: inVitest ? false : 'css' })],
       dts: 'src/components.d.ts',
     }),
+    // The installable, offline client: manifest and service worker (build/pwa.ts); not in tests.
+    ...(inVitest ? [] : [VitePWA(pwaOptions(fileURLToPath(new URL('./dist', import.meta.url))))]),
   ],
   resolve: {
     alias: {

@@ -27,6 +27,8 @@ import { studyRoutes } from './routes/studies';
 import { studyTemplateRoutes } from './routes/study-templates';
 import { recordRoutes } from './routes/records';
 import { reviewRoutes } from './routes/reviews';
+import { productFileRoutes } from './routes/product-file';
+import { photoColourRoutes } from './routes/photo-colour';
 import { accountRoutes } from './routes/account';
 import { oosRoutes } from './routes/oos';
 
@@ -134,6 +136,8 @@ export function createApp(deps: AppDeps) {
   api.use(recordRoutes(db, files));
   api.use(reviewRoutes(db, log, files));
   api.use(oosRoutes(db));
+  api.use(productFileRoutes(db, files));
+  api.use(photoColourRoutes(db, files));
   api.use(accountRoutes({ db, config, log }));
   api.use(apiNotFound);
   app.use('/api', api);

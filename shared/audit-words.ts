@@ -59,6 +59,10 @@ const ENTITY_LABELS: Readonly<Record<string, string>> = {
   ingredient: 'ingredient',
   formulas: 'formula catalogue',
   oos_investigation: 'out-of-specification investigation',
+  risk_assessment: 'microbial-risk assessment',
+  product_document: 'product-file document',
+  photo_regions: 'photo colour regions',
+  colour_card: 'reference card',
 };
 
 /** "Signature refused" for 'sign_failed'; an action outside the vocabulary in words. */

@@ -54,6 +54,8 @@ export function criterionText(criterion: Criterion | null | undefined, subject: 
       return `within ±${withUnit(criterion.max, unit)} of day 0`;
     case 'change_pct':
       return `within ±${formatNumber(criterion.max)} % of day 0`;
+    case 'delta_e00_max':
+      return `colour difference from day 0 at most ${formatNumber(criterion.max)} (ΔE00)`;
     case 'worst_grade': {
       const step = subject.scale?.find((s) => s.grade === criterion.grade);
       const name = step ? ` (${step.label})` : '';

@@ -13,6 +13,8 @@ import { DEMO_LABS, DEMO_PASSWORD } from './people';
 import { seedFormulas } from './formulas';
 import { seedStorage } from './storage';
 import { seedStudies } from './studies';
+import { seedProductFile } from './product-file';
+import { seedColourPhotos } from './colour-photos';
 import { BCRYPT_ROUNDS } from '../auth/password-policy';
 
 let cachedHash: string | undefined;
@@ -73,6 +75,8 @@ export async function seedDemo(db: Db, opts: SeedOptions = {}): Promise<SeededLa
             opts.files ?? folderStore(opts.uploadsDir ?? '.data/uploads'),
             opts.now,
           );
+          await seedProductFile(tx, labId, byRole('formulator'), catalogue, opts.files ?? folderStore(opts.uploadsDir ?? '.data/uploads'), opts.now);
+          await seedColourPhotos(tx, labId, byRole('technician') ?? author, opts.files ?? folderStore(opts.uploadsDir ?? '.data/uploads'));
         }
       }
       await audit(tx, { labId, userId: null, action: 'create', entity: 'lab', entityId: labId, newValue: { name: lab.name, demo: true } });

@@ -402,6 +402,7 @@ export function formulaRoutes(db: Db): Router {
           packaging: input.packaging,
           fillAmount: input.fillAmount ?? null,
           fillUnit: input.fillUnit ?? null,
+          fillingTempC: input.fillingTempC ?? null,
           notes: input.notes ?? null,
         };
         const [{ id }] = await tx

@@ -13,6 +13,8 @@ import { FileMissing, photoKey, sendStream, type FileStore } from '../files';
 import { describeAuditRows, type AuditWords, type LabFormat } from '../services/audit-text';
 import { planImport, previewOf, runImport } from '../services/import';
 import { attachmentHeader, checkImages, ensureDisplayCopy, PHOTO_LIMITS, photosFor, savePhotos } from '../services/photos';
+import { isDuplicateKey, photoClientId, photoSent } from '../services/recording/device';
+import { offlineCopy } from '../services/recording/offline';
 import { checkpointOpen, correctObservation, observationHistory, recordObservations, recordSheet, sampleAtCheckpoint, voidObservation, type Recorder } from '../services/records';
 import { todayIn } from '../services/studies';
 import { studyExists } from '../services/study/detail';
@@ -50,6 +52,12 @@ function upload(field: string, opts: { maxFiles: number; fileSize: number }): Re
 export function recordRoutes(db: Db, fileStore: FileStore): Router {
   const r = Router();
 
+  // The copy a device keeps to work offline: the Bench for 7 days and each of its Record sheets.
+  r.get('/bench/offline', requireMember, async (req, res) => {
+    const me = member(req);
+    res.json(await offlineCopy(db, me.labId, me.id, todayIn(me.lab.timeZone)));
+  });
+
   r.get('/samples/:code/checkpoints/:checkpointId', requireMember, async (req, res) => {
     const me = member(req);
     res.json({ sheet: await recordSheet(db, me.labId, String(req.params.code), idParam(req.params.checkpointId), todayIn(me.lab.timeZone)) });
@@ -61,8 +69,8 @@ export function recordRoutes(db: Db, fileStore: FileStore): Router {
     const code = String(req.params.code);
     const checkpointId = idParam(req.params.checkpointId);
     const today = todayIn(me.lab.timeZone);
-    await recordObservations(db, recorder(me), code, checkpointId, input.entries, today, input.allowEarly ?? false);
-    res.json({ sheet: await recordSheet(db, me.labId, code, checkpointId, today) });
+    const { replayed } = await recordObservations(db, recorder(me), code, checkpointId, input.entries, today, input.allowEarly ?? false, input);
+    res.json({ sheet: await recordSheet(db, me.labId, code, checkpointId, today), replayed });
   });
 
   r.post('/observations/:id/corrections', requireMember, async (req, res) => {
@@ -102,12 +110,26 @@ export function recordRoutes(db: Db, fileStore: FileStore): Router {
         .from(checkpoints)
         .where(and(eq(checkpoints.labId, me.labId), eq(checkpoints.id, checkpointId)));
       if (!cp || !(await sampleAtCheckpoint(db, sample, cp.cp))) throw notFound('This sample has no such checkpoint');
+      // From a device's outbox: one photo per client id; a resend answers the photos as they are.
+      const clientId = photoClientId(req.body);
+      if (clientId && (await photoSent(db, me.labId, clientId))) {
+        res.status(200).json({ photos: await photosFor(db, me.labId, { sampleId: sample.id, checkpointId }), replayed: true });
+        return;
+      }
       const closed = checkpointOpen({ status: cp.status }, cp.cp, todayIn(me.lab.timeZone), me.role !== 'technician');
       if (closed) throw new HttpError(409, 'conflict', closed);
       const files = (req.files as Express.Multer.File[] | undefined) ?? [];
       if (!files.length) throw new HttpError(400, 'validation', 'Choose at least one photo', { photos: 'No photo chosen' });
+      if (clientId && files.length > 1) throw new HttpError(400, 'validation', 'One photo per client id', { photos: 'One photo per client id' });
       const checked = await checkImages(files);
-      await savePhotos(db, fileStore, me, { studyId: sample.studyId, sampleId: sample.id, checkpointId, sampleCode: sample.code, checkpointLabel: cp.cp.label }, checked);
+      try {
+        await savePhotos(db, fileStore, me, { studyId: sample.studyId, sampleId: sample.id, checkpointId, sampleCode: sample.code, checkpointLabel: cp.cp.label, clientId }, checked);
+      } catch (err) {
+        // The same photo sent twice at once: the second answers as a resend (its files were removed).
+        if (!clientId || !isDuplicateKey(err)) throw err;
+        res.status(200).json({ photos: await photosFor(db, me.labId, { sampleId: sample.id, checkpointId }), replayed: true });
+        return;
+      }
       res.status(201).json({ photos: await photosFor(db, me.labId, { sampleId: sample.id, checkpointId }) });
     },
   );

@@ -6,6 +6,7 @@
 import { deltaE2000, deltaE76 } from '../../shared/compute/color';
 import type { Criterion } from '../../shared/compute/criteria';
 import { daysBetween } from '../../shared/compute/schedule';
+import { photoDeltaESeries } from './photo-colour/analysis';
 import { limitValueText, shelfLifeMultiBatch, type AcceptanceLimit } from '../../shared/compute/shelf-life';
 import { DAYS_PER_MONTH, suggestShelfLife, type SuggestCondition } from '../../shared/compute/suggest';
 import type { ConditionKind, ConditionRole } from '../../shared/domain';
@@ -291,6 +292,8 @@ export async function analyzeStudy(db: Db, labId: number, studyId: number, today
       deltaE.push({ variantId: b.variant.id, studyConditionId: s.studyConditionId!, sampleCode: s.code, points });
     }
   }
+
+  deltaE.push(...(await photoDeltaESeries(db, labId, studyId, d.startDate, deltaE)));
 
   // ---------------------------------------------------------------- first failure per variant and condition
   const initialCheckpoints = new Set(obs.filter((x) => x.cp.kind === 'initial').map((x) => x.cp.id));

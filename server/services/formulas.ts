@@ -356,6 +356,7 @@ export const batchColumns = {
   packaging: batches.packaging,
   fillAmount: batches.fillAmount,
   fillUnit: batches.fillUnit,
+  fillingTempC: batches.fillingTempC,
   notes: batches.notes,
   createdAt: batches.createdAt,
   variantId: variants.id,
@@ -373,6 +374,7 @@ type BatchRow = {
   packaging: string;
   fillAmount: number | null;
   fillUnit: 'g' | 'mL' | null;
+  fillingTempC?: number | null;
   notes: string | null;
   createdAt: Date;
   variantId: number;
@@ -391,6 +393,7 @@ export function toBatch(r: BatchRow): BatchSummary {
     packaging: r.packaging,
     fillAmount: r.fillAmount == null ? null : Number(r.fillAmount),
     fillUnit: r.fillUnit,
+    fillingTempC: r.fillingTempC == null ? null : Number(r.fillingTempC),
     notes: r.notes,
     variant: { id: r.variantId, code: r.variantCode, name: r.variantName },
     product: { id: r.productId, name: r.productName },

@@ -139,7 +139,7 @@ export async function savePhotos(
   db: Db,
   files: FileStore,
   who: { id: number; labId: number },
-  target: { studyId: number; sampleId: number; checkpointId: number; sampleCode: string; checkpointLabel: string },
+  target: { studyId: number; sampleId: number; checkpointId: number; sampleCode: string; checkpointLabel: string; clientId?: string | null },
   checked: Checked[],
 ): Promise<number[]> {
   const written: string[] = [];
@@ -175,6 +175,7 @@ export async function savePhotos(
             height: c.height,
             originalName: c.file.originalname.slice(0, 200),
             uploadedBy: who.id,
+            clientId: target.clientId ?? null,
           })
           .$returningId();
         ids.push(id);

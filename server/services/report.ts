@@ -16,9 +16,12 @@ import type { Db } from '../db/client';
 import { photoKey, readAll, type FileStore } from '../files';
 import { auditLog, batches, labs, photos } from '../db/schema';
 import { analyzeStudy } from './analysis';
+import { photoColourSection } from './photo-colour/report-section';
 import { attributeCharts } from './report-charts';
 import { reviewOf } from './reviews';
 import { studyDetail } from './studies';
+import { studyProductFile } from './product-file/expected';
+import { productFileSection } from './product-file/report-section';
 
 const require = createRequire(import.meta.url);
 // pdfmake's server build is CommonJS.
@@ -93,6 +96,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
   const d = await studyDetail(db, labId, studyId, today);
   const a = await analyzeStudy(db, labId, studyId, today, lab.q10);
   const review = await reviewOf(db, labId, studyId);
+  const productFile = await studyProductFile(db, labId, studyId);
   const batchRows = await db.select().from(batches).where(inArray(batches.id, d.batches.map((b) => b.id)));
   const auditRows = await db
     .select({ action: auditLog.action, entity: auditLog.entity })
@@ -223,6 +227,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
       ...(charts.length
         ? [{ ...(charts[0] as { stack: unknown[] }), stack: [h('Charts'), { text: 'One chart per condition; each variant keeps its marker and line pattern on every chart. Values are means of the samples at each checkpoint.', style: 'muted' }, ...(charts[0] as { stack: unknown[] }).stack] }, ...charts.slice(1)]
         : [h('Charts'), { text: 'No measured values yet.', italics: true }]),
+      ...photoColourSection(a, h),
       h('Suggested shelf life and reasons'),
       ...a.suggestions.flatMap((s) => [
         { text: `${variantName(s.variantId)}: ${s.result.months != null ? `${s.result.months} months` : 'no figure yet'} (${s.result.basis.replace('_', ' ')})`, bold: true, margin: [0, 6, 0, 2], headlineLevel: 2 },
@@ -233,6 +238,7 @@ export async function studyReportPdf(db: Db, labId: number, studyId: number, tod
         { text: s.result.confidenceNote, style: 'muted', margin: [0, 3, 0, 0] },
       ]),
       { text: a.suggestions[0]?.result.caution ?? '', italics: true, margin: [0, 6, 0, 0] },
+      ...productFileSection(productFile, h, table),
       h('Out-of-specification results'),
       review.investigations.length
         ? table(

@@ -45,6 +45,7 @@ import { analyzeStudy } from './analysis';
 import { audit } from './audit';
 import { cycleHoursOf, planOf, todayIn } from './studies';
 import { investigationsOf } from './oos';
+import { missingChallengeTest, signedDocuments } from './product-file/expected';
 import { pairedControlFor } from './study/amend';
 
 const bad = (fields: Record<string, string>) => new HttpError(400, 'validation', `Invalid input: check ${Object.keys(fields).join(', ')}`, fields);
@@ -209,6 +210,11 @@ export async function decide(
     const why = longerThanSuggested(input, suggested);
     if (why) throw bad({ comment: why });
   }
+  // So does a release without the challenge test the variant's risk panel expects.
+  if (releasing && !input.comment) {
+    const why = await missingChallengeTest(db, who.labId, studyId, input.variantId);
+    if (why) throw bad({ comment: why });
+  }
   const signer = await verifySigner(db, log, who.id, who.labId, input.password, studyId);
 
   return db.transaction(async (tx) => {
@@ -329,6 +335,7 @@ export async function decide(
         signedAt: signedAt.toISOString(),
         dataHash,
         studyStatus: status,
+        documents: await signedDocuments(tx, who.labId, studyId, variant.id),
       },
       reason: input.supersedeReason ?? input.comment ?? null,
     });

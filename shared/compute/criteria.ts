@@ -24,6 +24,8 @@ export type Criterion =
   | { kind: 'range'; min?: number | null; max?: number | null }
   | { kind: 'change_abs'; max: number }
   | { kind: 'change_pct'; max: number }
+  /** Colour difference from day 0 at most `max` ΔE00 (the value is a ΔE00, e.g. measured from photos). */
+  | { kind: 'delta_e00_max'; max: number }
   | { kind: 'worst_grade'; grade: number }
   | { kind: 'worst_compared'; level: ComparedLevel }
   | { kind: 'must_pass' }
@@ -32,7 +34,7 @@ export type CriterionKind = Criterion['kind'];
 
 /** Criterion kinds that make sense for each attribute kind ('none' is always allowed). */
 export const CRITERION_KINDS_BY_ATTRIBUTE: Readonly<Record<AttributeKind, readonly CriterionKind[]>> = {
-  measured: ['range', 'change_abs', 'change_pct', 'none'],
+  measured: ['range', 'change_abs', 'change_pct', 'delta_e00_max', 'none'],
   graded: ['worst_grade', 'none'],
   compared: ['worst_compared', 'none'],
   pass_fail: ['must_pass', 'none'],
@@ -114,6 +116,7 @@ export function criterionError(criterion: Criterion): string | null {
       return null;
     case 'change_abs':
     case 'change_pct':
+    case 'delta_e00_max':
       return Number.isFinite(criterion.max) && criterion.max >= 0 ? null : 'The allowed change must be a number of at least 0';
     case 'worst_grade':
       return Number.isInteger(criterion.grade) && criterion.grade >= 0 ? null : 'The worst allowed grade must be a whole number of at least 0';
@@ -195,6 +198,11 @@ export function evaluate(
         verdict: ok ? 'pass' : 'fail',
         message: `${name} ${withUnit(v, unit)} is ${fmtChange(pct, criterion.max, ok, 2)} % from day-0 ${withUnit(baseline, unit)}; allowed ±${fmt(criterion.max)} %`,
       };
+    }
+    case 'delta_e00_max': {
+      const v = expectNumber(value, 'A colour-difference criterion');
+      const ok = v <= criterion.max + tol;
+      return { verdict: ok ? 'pass' : 'fail', message: `${name} ΔE00 ${fmtChange(v, criterion.max, ok, 2)} from day 0; allowed at most ${fmt(criterion.max)}` };
     }
     case 'worst_grade': {
       const g = expectNumber(value, 'A grade criterion');

@@ -82,6 +82,8 @@ export interface DeltaESeries {
   variantId: number;
   studyConditionId: number;
   sampleCode: string;
+  /** 'photo': estimated from photos with a reference card (an instrument reading wins where both exist). */
+  source?: 'photo';
   points: { label: string; months: number; de76: number | null; de00: number | null }[];
 }
 

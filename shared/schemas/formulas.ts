@@ -230,6 +230,7 @@ export const batchInput = z
       .nullable()
       .optional(),
     fillUnit: z.enum(FILL_UNITS, { error: 'Choose g or mL' }).nullable().optional(),
+    fillingTempC: z.number({ error: 'Enter the filling temperature in °C' }).min(-20, 'At least -20 °C').max(150, 'At most 150 °C').nullable().optional(),
     notes,
   })
   .superRefine((v, ctx) => {
@@ -360,6 +361,8 @@ export interface BatchSummary {
   packaging: string;
   fillAmount: number | null;
   fillUnit: FillUnit | null;
+  /** Filling temperature, °C, where recorded. */
+  fillingTempC?: number | null;
   notes: string | null;
   variant: { id: number; code: string; name: string };
   product: { id: number; name: string };

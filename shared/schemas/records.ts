@@ -37,10 +37,22 @@ export const recordEntry = z
   });
 export type RecordEntry = z.infer<typeof recordEntry>;
 
+/** A time the device stamped: ISO 8601 with a zone, between 2000 and 2199. */
+export const deviceTime = z.iso
+  .datetime({ offset: true, message: 'A date and time with its zone (ISO 8601)' })
+  .refine((v) => {
+    const y = new Date(v).getUTCFullYear();
+    return y >= 2000 && y <= 2199;
+  }, 'Between the years 2000 and 2199');
+
 export const recordInput = z.strictObject({
   entries: z.array(recordEntry).min(1, 'Nothing to save').max(60),
   /** Lets a formulator record before the window opens. */
   allowEarly: z.boolean().optional(),
+  /** A save from the device's outbox: its id (made on the device, the idempotency key), when it was recorded and when sent, by the device's clock. */
+  clientId: z.uuid('A UUID made on the device').optional(),
+  deviceRecordedAt: deviceTime.optional(),
+  deviceSentAt: deviceTime.optional(),
 });
 export type RecordInput = z.infer<typeof recordInput>;
 
@@ -74,6 +86,8 @@ export interface ObservationView {
   recordedAt: string;
   version: number;
   voided: boolean;
+  /** Saved from a device's outbox: when the device recorded it, and whether its clock was off by more than 10 minutes. */
+  device?: DeviceTimes | null;
   /** Out of specification: the investigation this failing reading opened. */
   investigation: {
     id: number;
@@ -82,6 +96,21 @@ export interface ObservationView {
     remeasure: { value: number | string | boolean; verdict: StoredVerdict } | null;
     conclusion: 'confirmed' | 'invalidated' | null;
   } | null;
+}
+
+/** A reading saved from a device's outbox: the device's time beside the server's (`recordedAt`). */
+export interface DeviceTimes {
+  recordedAt: string;
+  /** Server time minus device time when it was sent, in seconds. */
+  clockOffsetS: number | null;
+  /** The device clock was off by more than 10 minutes. */
+  clockSkewed: boolean;
+}
+
+/** The answer to a save: the sheet, and whether this was a resend of a save already kept (nothing changed). */
+export interface RecordSaveResponse {
+  sheet: RecordSheet;
+  replayed: boolean;
 }
 
 export interface ReferenceValue {
@@ -173,6 +202,8 @@ export interface RevisionView {
   recordedAt: string;
   /** correction, void, invalidated (an out-of-specification result replaced by its valid re-test), remeasure (a second bench reading kept beside it). */
   change: 'correction' | 'void' | 'invalidated' | 'remeasure' | null;
+  /** The current version, when saved from a device's outbox. */
+  device?: DeviceTimes | null;
   changedBy: string | null;
   changedAt: string | null;
   reason: string | null;
@@ -217,4 +248,17 @@ export interface AuditRow {
   actionLabel: string;
   /** The entry in words, names and values as the screens show them (server/services/audit-text/). */
   sentence: string;
+}
+
+/** A device clock further than this from the server's (seconds) is flagged on the reading. */
+export const CLOCK_SKEW_LIMIT_S = 600;
+
+/** GET /api/bench/offline: what a device keeps to work offline (the Bench for 7 days and each of its Record sheets). */
+export interface OfflineCopy {
+  bench: import('./studies').BenchResponse;
+  sheets: RecordSheet[];
+  /** Sheets left out above the limit. */
+  left: number;
+  /** When the server made it. */
+  at: string;
 }

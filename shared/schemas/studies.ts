@@ -42,6 +42,7 @@ export const criterion = z
     z.strictObject({ kind: z.literal('range'), min: num.nullable().optional(), max: num.nullable().optional() }),
     z.strictObject({ kind: z.literal('change_abs'), max: num.positive('Must be more than 0') }),
     z.strictObject({ kind: z.literal('change_pct'), max: num.positive('Must be more than 0').max(1000) }),
+    z.strictObject({ kind: z.literal('delta_e00_max'), max: num.positive('Must be more than 0').max(100, 'At most 100') }),
     z.strictObject({ kind: z.literal('worst_grade'), grade: z.number().int().min(0).max(20) }),
     z.strictObject({ kind: z.literal('worst_compared'), level: z.enum(COMPARED_LEVELS as unknown as [string, ...string[]]) }),
     z.strictObject({ kind: z.literal('must_pass') }),

@@ -3,7 +3,7 @@
  * can), sent in one request, errors beside their attributes; offline, the draft waits on this device
  * and is sent again by itself; after a 409 (recorded meanwhile), what differs from what was typed here.
  */
-import { computed, nextTick, ref, type ComputedRef, type Ref } from 'vue';
+import { computed, nextTick, ref, watch, type ComputedRef, type Ref } from 'vue';
 import { ElMessage } from 'element-plus';
 import { recordInput, type RecordEntry, type RecordSheet } from '@shared/schemas/records';
 import { api, ApiError } from '@/api/client';
@@ -11,6 +11,8 @@ import { draftValue, entryHasContent, methodForApi, typedProblem, valueText, typ
 import { useRetry } from '@/composables/useDraft';
 import type { useRecordEntries } from '@/composables/useRecordEntries';
 import { sheetPath } from '@/composables/useRecordSheet';
+import { isOffline, offlineKit, outboxState } from '@/offline/status';
+import { useSessionStore } from '@/stores/session';
 
 export type SaveOutcome = 'saved' | 'nothing' | 'invalid' | 'offline' | 'refused';
 
@@ -45,6 +47,7 @@ export async function focusFirstProblem() {
 
 export function useRecordSave(o: Options) {
   const { draft, entries } = o.typed;
+  const session = useSessionStore();
   const saving = ref(false);
   const formError = ref('');
   /** Messages beside attributes, by studyAttributeId. */
@@ -113,6 +116,8 @@ export function useRecordSave(o: Options) {
     }
     saving.value = true;
     try {
+      // Earlier saves still wait on this device: this one goes behind them, so they are sent in order.
+      if (outboxState.waiting > outboxState.attention && session.user) return await keepOnDevice(s, checked.data.entries);
       const res = await api.put<{ sheet: RecordSheet }>(`${sheetPath(s.sample.code, s.checkpoint.id)}/observations`, checked.data);
       for (const e of list) o.typed.rememberMethod(e.studyAttributeId, e.method);
       const wasPending = draft.pending.value;
@@ -126,7 +131,8 @@ export function useRecordSave(o: Options) {
       return 'saved';
     } catch (e) {
       if (!(e instanceof ApiError)) throw e;
-      if (e.status === 0 || e.status === 502 || e.status === 503 || e.status === 504) {
+      if (isOffline(e)) {
+        if (session.user) return await keepOnDevice(s, checked.data.entries);
         draft.markPending();
         return 'offline';
       }
@@ -148,6 +154,37 @@ export function useRecordSave(o: Options) {
     } finally {
       saving.value = false;
     }
+  }
+
+  /** Saves kept on this device from this screen: once the server has them (the sheet reloads), failing results are asked about. */
+  const sentLater = ref<{ code: string; checkpointId: number; ids: number[] } | null>(null);
+  watch(o.sheet, (sh) => {
+    const w = sentLater.value;
+    if (!w || !sh) return;
+    if (sh.sample.code !== w.code || sh.checkpoint.id !== w.checkpointId) {
+      sentLater.value = null;
+      return;
+    }
+    const got = sh.attributes.filter((a) => w.ids.includes(a.studyAttributeId));
+    if (got.length && got.every((a) => (a.current?.id ?? 0) > 0)) {
+      sentLater.value = null;
+      o.onSaved(w.ids);
+    }
+  });
+
+  /** No connection: the save goes into this device's outbox (src/offline/outbox.ts) and is sent when the connection returns. */
+  async function keepOnDevice(s: RecordSheet, list: RecordEntry[]): Promise<SaveOutcome> {
+    const user = session.user!;
+    const k = await offlineKit();
+    await k.queueSave(user, s, list, o.recordEarly.value);
+    sentLater.value = { code: s.sample.code, checkpointId: s.checkpoint.id, ids: list.map((e) => e.studyAttributeId) };
+    for (const e of list) o.typed.rememberMethod(e.studyAttributeId, e.method);
+    draft.markConfirmed();
+    o.apply(await k.withOutbox(user, s));
+    fieldErrors.value = {};
+    ElMessage.success(`${list.length} ${list.length === 1 ? 'reading' : 'readings'} of ${s.sample.code} saved on this device, not yet sent`);
+    if (navigator.onLine) void k.sendAll(user);
+    return 'saved';
   }
 
   /** After a 409: reload, drop what is now recorded, and say where the recorded value differs from what was typed here. */

@@ -2,10 +2,12 @@
  * The Record sheet of one sample at one checkpoint: loading it, the reasons of voided values (read
  * from their history), and updating one value's out-of-specification state after a bench step.
  */
-import { ref, type Ref } from 'vue';
+import { ref, watch, type Ref } from 'vue';
 import type { RecordSheet, RevisionView } from '@shared/schemas/records';
 import { api, ApiError } from '@/api/client';
 import type { OosState } from '@/components/record/oos';
+import { isOffline, offlineKit, outboxState } from '@/offline/status';
+import { useSessionStore } from '@/stores/session';
 
 export function sheetPath(code: string, checkpointId: number): string {
   return `/samples/${encodeURIComponent(code)}/checkpoints/${checkpointId}`;
@@ -18,6 +20,9 @@ export function useRecordSheet(code: Ref<string>, checkpointId: Ref<number>, onA
   const loadError = ref('');
   /** Why each voided value was voided, by observation id. */
   const voidReasons = ref<Record<number, string>>({});
+  /** Offline: the sheet comes from the copy kept on this device, made then (ISO). */
+  const copiedAt = ref<string | null>(null);
+  const session = useSessionStore();
 
   function apply(s: RecordSheet) {
     sheet.value = s;
@@ -49,12 +54,21 @@ export function useRecordSheet(code: Ref<string>, checkpointId: Ref<number>, onA
     notFound.value = false;
     loadError.value = '';
     try {
-      const s = (await api.get<{ sheet: RecordSheet }>(sheetPath(code.value, checkpointId.value))).sheet;
+      let s = (await api.get<{ sheet: RecordSheet }>(sheetPath(code.value, checkpointId.value))).sheet;
+      copiedAt.value = null;
+      // Saves of this sheet still in the outbox show as recorded on this device.
+      if (outboxState.waiting && session.user) s = await (await offlineKit()).withOutbox(session.user, s);
       apply(s);
       document.title = `${s.sample.code} · ${s.checkpoint.label} · Keepwell`;
       return s;
     } catch (e) {
       sheet.value = null;
+      const kept = isOffline(e) && session.user ? await (await offlineKit()).sheetCopy(session.user, code.value, checkpointId.value).catch(() => null) : null;
+      if (kept) {
+        copiedAt.value = kept.at;
+        apply(kept.sheet);
+        return kept.sheet;
+      }
       if (e instanceof ApiError && (e.status === 404 || e.status === 400)) notFound.value = true;
       else if (e instanceof ApiError) loadError.value = e.message;
       else throw e;
@@ -63,6 +77,14 @@ export function useRecordSheet(code: Ref<string>, checkpointId: Ref<number>, onA
       loading.value = false;
     }
   }
+
+  // Saves of this sheet sent from the outbox: show the server's values.
+  watch(
+    () => outboxState.waiting,
+    (n, was) => {
+      if (n < was && sheet.value?.attributes.some((a) => (a.current?.id ?? 0) < 0)) void load();
+    },
+  );
 
   /** After a re-measure or confirmation: the value's investigation as the server now has it. */
   function patchInvestigation(studyAttributeId: number, state: OosState) {
@@ -74,5 +96,5 @@ export function useRecordSheet(code: Ref<string>, checkpointId: Ref<number>, onA
     };
   }
 
-  return { sheet, loading, notFound, loadError, voidReasons, load, apply, patchInvestigation };
+  return { sheet, loading, notFound, loadError, voidReasons, copiedAt, load, apply, patchInvestigation };
 }

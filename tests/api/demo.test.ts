@@ -126,3 +126,30 @@ describe('the demo lab', () => {
     expect((await formulator.get('/api/notifications')).body.unread).toBeGreaterThan(0);
   });
 });
+
+describe('the demo product file (issue #17)', () => {
+  it('shows one low-risk variant (the anhydrous body butter) and one not (hand cream B) with a challenge-test report', async () => {
+    const { riskAssessments, variants, products } = await import('../../server/db/schema');
+    const { eq } = await import('drizzle-orm');
+    const rows = await t.db
+      .select({ id: variants.id, code: variants.code, product: products.name, lowRisk: riskAssessments.lowRisk })
+      .from(riskAssessments)
+      .innerJoin(variants, eq(variants.id, riskAssessments.variantId))
+      .innerJoin(products, eq(products.id, variants.productId))
+      .where(eq(riskAssessments.labId, t.labs[0].id));
+    const butter = rows.find((r) => r.product.includes('body butter'))!;
+    const cream = rows.find((r) => r.product.includes('hand cream') && r.code === 'B')!;
+    const butterRisk = (await technician.get(`/api/variants/${butter.id}/risk`)).body.risk;
+    // ISO 29621 (public summary): an anhydrous product is microbiologically low risk.
+    expect(butterRisk.assessment.text).toMatch(/^Low risk by anhydrous/);
+    expect(butterRisk.assessment.outOfDate).toEqual([]);
+    const creamRisk = (await technician.get(`/api/variants/${cream.id}/risk`)).body.risk;
+    expect(creamRisk.assessment.lowRisk).toBe(false);
+    const docs = (await technician.get(`/api/variants/${cream.id}/documents`)).body.documents;
+    expect(docs).toHaveLength(1);
+    expect(docs[0]).toMatchObject({ kind: 'challenge_test', criteria: 'A', mime: 'application/pdf' });
+    const file = await technician.get(docs[0].url);
+    expect(file.status).toBe(200);
+    expect(file.headers['content-disposition']).toMatch(/^attachment/);
+  });
+});

@@ -277,18 +277,18 @@ describe('Record on a tablet', () => {
     await page.getByTestId('photo-input').setInputFiles({ name: 'jar-b.png', mimeType: 'image/png', buffer: photo });
     await page.waitForSelector('[data-testid^="photo-thumb-"]');
 
-    // The connection drops: nothing typed is lost; it is sent once the connection is back.
+    // The connection drops: the save is kept on this device (its outbox, issue 18) and sent once the connection is back.
     await quiet(page);
     const beforeOffline = problems.length;
     await context.setOffline(true);
     await page.getByTestId('save').click();
-    await expect.poll(() => page.getByTestId('draft-banner').textContent()).toContain('Draft kept on this device');
-    expect(await page.getByTestId('savebar-draft').textContent()).toContain('Draft kept on this device');
+    await expect.poll(() => page.getByTestId('outbox-count').textContent()).toContain('saved on this device, not yet sent');
+    await page.getByTestId('attr-ph').getByTestId('on-device').waitFor();
     await settle(page, false);
     await page.screenshot({ path: join(SHOTS, 'record-offline-draft.png') });
     expect((await sheetOf(second.code, week1.id)).attributes.every((a) => a.current === null)).toBe(true);
     await context.setOffline(false);
-    await expect.poll(() => page.getByTestId('draft-banner').count(), { timeout: 20_000 }).toBe(0);
+    await expect.poll(() => page.getByTestId('outbox-bar').count(), { timeout: 20_000 }).toBe(0);
     // Requests that failed while offline are expected; keep every other problem.
     const offlineProblems = problems.splice(beforeOffline);
     expect(offlineProblems.every((p) => /request failed|ERR_INTERNET_DISCONNECTED/.test(p)), offlineProblems.join('\n')).toBe(true);

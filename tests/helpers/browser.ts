@@ -41,6 +41,12 @@ export async function startBrowserRig(opts: { demo?: 'people' | 'full' } = {}): 
       '--disable-dev-shm-usage',
     ],
   });
+  // Service workers are blocked unless a test asks for them (`serviceWorkers: 'allow'`, the offline
+  // tests): a precache download cut off when a page closes would count as a failed request.
+  const newContext = browser.newContext.bind(browser);
+  const newPage = browser.newPage.bind(browser);
+  browser.newContext = (o = {}) => newContext({ serviceWorkers: 'block', ...o });
+  browser.newPage = (o = {}) => newPage({ serviceWorkers: 'block', ...o });
   mkdirSync(SHOTS, { recursive: true });
   return {
     t,

@@ -85,6 +85,8 @@ export const batches = mysqlTable(
     packaging: varchar('packaging', { length: 200 }).notNull(),
     fillAmount: decimal('fill_amount', { precision: 8, scale: 2, mode: 'number' }),
     fillUnit: mysqlEnum('fill_unit', ['g', 'mL']),
+    /** Temperature the product was filled at, °C (the microbial-risk panel's hot-filling factor). */
+    fillingTempC: decimal('filling_temp_c', { precision: 5, scale: 1, mode: 'number' }),
     notes: text('notes'),
     /** The formula as it was when the batch was made: later edits to the variant do not change it. */
     formulaSnapshot: json('formula_snapshot').notNull(),

@@ -9,3 +9,5 @@ export * from './decisions';
 export * from './oos';
 export * from './limits';
 export * from './templates';
+export * from './product-file';
+export * from './photo-colour';

@@ -1,5 +1,5 @@
 /** The history of each observation (corrections and voids) and photos of samples at checkpoints. */
-import { mysqlTable, varchar, text, int, boolean, datetime, json, mysqlEnum, double, index } from 'drizzle-orm/mysql-core';
+import { mysqlTable, varchar, text, int, boolean, datetime, json, mysqlEnum, double, index, uniqueIndex } from 'drizzle-orm/mysql-core';
 import { VERDICTS } from '../../../shared/domain';
 import { createdAt, pk, ref, labs, users } from './core';
 import { checkpoints, observations, samples, studies } from './studies';
@@ -49,6 +49,8 @@ export const photos = mysqlTable(
     caption: varchar('caption', { length: 200 }),
     uploadedBy: ref('uploaded_by').notNull().references(() => users.id),
     uploadedAt: createdAt('uploaded_at'),
+    /** A photo sent from a device's outbox: the id the device made (idempotency key). */
+    clientId: varchar('client_id', { length: 36 }),
   },
-  (t) => [index('photos_sample_idx').on(t.labId, t.sampleId, t.checkpointId), index('photos_study_idx').on(t.studyId)],
+  (t) => [index('photos_sample_idx').on(t.labId, t.sampleId, t.checkpointId), index('photos_study_idx').on(t.studyId), uniqueIndex('photos_client_uq').on(t.labId, t.clientId)],
 );

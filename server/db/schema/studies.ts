@@ -241,9 +241,16 @@ export const observations = mysqlTable(
     recordedAt: createdAt('recorded_at'),
     version: int('version').notNull().default(1),
     voided: boolean('voided').notNull().default(false),
+    /** A save sent from a device's outbox: the id the device made (idempotency key) and a hash of what it sent. */
+    clientId: varchar('client_id', { length: 36 }),
+    clientHash: varchar('client_hash', { length: 64 }),
+    /** When the device says it was recorded, and the server's time minus the device's when sent (seconds). */
+    deviceRecordedAt: datetime('device_recorded_at', { mode: 'date', fsp: 3 }),
+    deviceClockOffsetS: int('device_clock_offset_s'),
   },
   (t) => [
     uniqueIndex('observations_cell_uq').on(t.sampleId, t.checkpointId, t.studyAttributeId),
+    uniqueIndex('observations_client_uq').on(t.labId, t.clientId, t.studyAttributeId),
     index('observations_checkpoint_idx').on(t.checkpointId),
     index('observations_study_idx').on(t.labId, t.studyId),
   ],

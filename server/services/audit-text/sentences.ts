@@ -4,6 +4,7 @@ import type { Criterion } from '../../../shared/compute/criteria';
 import { offsetLabel, type Offset } from '../../../shared/compute/schedule';
 import { criterionText, formatNumber } from '../../../shared/criterion-text';
 import { CONDITION_ROLE_LABELS, type AttributeScaleStep, type ConditionRole } from '../../../shared/domain';
+import { CLOCK_SKEW_LIMIT_S } from '../../../shared/schemas/records';
 import { AuditSource, LabFormat, ReadingInfo, AuditNames, Rec, rec, idOf, arr, str } from './common';
 import { q, cut, plural, lowerFirst, end, withNote, dateText, instantText, readingText, judged, methodText, KIND_WORDS, ATTRIBUTE_KIND_WORDS, roleWord, statusWord, outcomeWord, fieldValue, changeList, conditionDefinition, DEMO_REASON, demoNote } from './values';
 
@@ -35,7 +36,7 @@ export function auditSentence(r: AuditSource, names: AuditNames, fmt: LabFormat)
       const { attr, what } = reading(id ? names.observations.get(id) : undefined);
       if (n.verdict === 'not_done') return withNote(`Recorded ${what} as not done`, str(n.notDoneReason), 'Why');
       const method = methodText(attr, n.method);
-      return end(`Recorded ${what}: ${judged(attr, n.value, n.verdict)}${method ? `, method ${method}` : ''}`);
+      return end(`Recorded ${what}: ${judged(attr, n.value, n.verdict)}${method ? `, method ${method}` : ''}${deviceNote(n, fmt)}`);
     }
     case 'update:observation': {
       const { attr, what } = reading(id ? names.observations.get(id) : undefined);
@@ -50,6 +51,18 @@ export function auditSentence(r: AuditSource, names: AuditNames, fmt: LabFormat)
     case 'create:photo':
       return end(
         `Added a photo of sample ${str(n.sample) ?? '?'} at ${str(n.checkpoint) ?? '?'}${inStudy}${str(n.file) ? `: ${q(cut(String(n.file), 80))}` : ''}${typeof n.bytes === 'number' ? ` (${bytesText(n.bytes)})` : ''}`,
+      );
+    case 'create:photo_regions':
+    case 'update:photo_regions':
+      return withNote(`${r.action === 'create' ? 'Marked' : 'Marked again'} the product and the reference card (${str(n.card) ?? '?'}) on a photo of sample ${str(n.sample) ?? '?'} at ${str(n.checkpoint) ?? '?'}${inStudy}`, reason);
+    case 'create:risk_assessment':
+    case 'update:risk_assessment': {
+      const pao = typeof n.decidedPaoMonths === 'number' ? `; period after opening ${n.decidedPaoMonths} months` : '';
+      return withNote(`${r.action === 'create' ? 'Assessed' : 'Re-assessed'} the microbial risk of variant ${str(n.variant) ?? '?'}: ${cut(str(n.outcome) ?? '?', 200)}${pao}`, reason);
+    }
+    case 'create:product_document':
+      return end(
+        `Attached ${q(cut(str(n.title) ?? '?', 80))} (${str(n.kind)?.replace(/_/g, ' ') ?? 'document'}${str(n.criteria) ? `, ISO 11930 criteria ${n.criteria === 'not_met' ? 'not met' : `${str(n.criteria)} met`}` : ''}) to ${n.on === 'study' ? studyName : (str(n.on) ?? '?')}${typeof n.bytes === 'number' ? ` (${bytesText(n.bytes)})` : ''}${str(n.sha256) ? `, SHA-256 ${str(n.sha256)}` : ''}`,
       );
     case 'update:checkpoint': {
       const cp = id ? names.checkpoints.get(id) : undefined;
@@ -228,7 +241,7 @@ export function auditSentence(r: AuditSource, names: AuditNames, fmt: LabFormat)
     case 'create:batch': {
       const vid = idOf(n.variantId);
       const v = vid ? names.variants.get(vid) : undefined;
-      const fill = typeof n.fillAmount === 'number' ? `, filled to ${formatNumber(n.fillAmount)} ${str(n.fillUnit) ?? 'g'}` : '';
+      const fill = `${typeof n.fillAmount === 'number' ? `, filled to ${formatNumber(n.fillAmount)} ${str(n.fillUnit) ?? 'g'}` : ''}${typeof n.fillingTempC === 'number' ? `, filled at ${formatNumber(n.fillingTempC)} °C` : ''}`;
       return withNote(
         `Recorded batch ${str(n.lotCode) ?? '?'} of ${v ? `${v.product} ${v.code}` : 'a variant'}, made ${dateText(n.madeOn, fmt)}: ${typeof n.sizeGrams === 'number' ? `${formatNumber(n.sizeGrams)} g` : '?'}, ${cut(str(n.packaging) ?? '?', 80)}${fill}`,
         reason,
@@ -383,4 +396,12 @@ export function lineChanges(oldLines: unknown, newLines: unknown, names: AuditNa
   }
   for (const l of a) if (!b.some((x) => x.ingredientId === l.ingredientId)) parts.push(`removed ${name(l)}`);
   return parts.join('; ');
+}
+
+/** A reading saved from a device's outbox: the device's time (the row's own time is the server's), and a clock far off. */
+function deviceNote(n: Rec, fmt: LabFormat): string {
+  if (typeof n.deviceRecordedAt !== 'string') return '';
+  const off = typeof n.deviceClockOffsetS === 'number' ? n.deviceClockOffsetS : null;
+  const skew = off != null && Math.abs(off) > CLOCK_SKEW_LIMIT_S ? `; the device clock was ${Math.round(Math.abs(off) / 60)} min ${off > 0 ? 'behind' : 'ahead of'} the server's` : '';
+  return ` (recorded on the device at ${instantText(n.deviceRecordedAt, fmt)}, sent from its outbox${skew})`;
 }

@@ -11,6 +11,7 @@ import { conflict, forbidden, notFound } from '../../http/errors';
 import { audit } from '../audit';
 import { openInvestigations } from '../oos';
 import { settleCheckpoint, unprocessable, type Recorder } from './save';
+import { deviceTimes } from './device';
 import { baselineFor, columnsFor, evaluateFor, valueOf, type Value } from './values';
 
 type ObservationRow = typeof observations.$inferSelect;
@@ -204,6 +205,7 @@ export async function observationHistory(db: Db, labId: number, observationId: n
     verdict: row.o.verdict,
     recordedBy: row.who,
     recordedAt: row.o.recordedAt.toISOString(),
+    device: deviceTimes(row.o),
     change: null,
     changedBy: null,
     changedAt: null,

@@ -13,6 +13,7 @@ import { conflict, HttpError } from '../../http/errors';
 import { auditMany } from '../audit';
 import { openInvestigations } from '../oos';
 import { checkpointOpen, context, samplesAtCheckpoint } from './context';
+import { checkClientId, deviceColumns, isDuplicateKey, saveHash, type DeviceSave } from './device';
 import { baselines, columnsFor, evaluateFor, judgedFrom, valueOf, type AttributeRow } from './values';
 
 export interface Recorder {
@@ -84,9 +85,33 @@ export async function recordObservations(
   entries: RecordEntry[],
   today: string,
   allowEarly: boolean,
-): Promise<void> {
-  await db.transaction(async (tx) => {
+  device: DeviceSave = {},
+): Promise<{ replayed: boolean }> {
+  const hash = saveHash(code, checkpointId, entries);
+  try {
+    return await saveOnce(db, who, code, checkpointId, entries, today, allowEarly, device, hash);
+  } catch (err) {
+    // The same save sent twice at once: the second meets the first's rows; it answers as a resend.
+    if (device.clientId && isDuplicateKey(err) && (await checkClientId(db, who.labId, who.id, device, hash)) === 'replay') return { replayed: true };
+    throw err;
+  }
+}
+
+async function saveOnce(
+  db: Db,
+  who: Recorder,
+  code: string,
+  checkpointId: number,
+  entries: RecordEntry[],
+  today: string,
+  allowEarly: boolean,
+  device: DeviceSave,
+  hash: string,
+): Promise<{ replayed: boolean }> {
+  return db.transaction(async (tx) => {
     const ctx = await context(tx, who.labId, code, checkpointId, true);
+    // A resend from a device's outbox answers before the open check: its first send may have closed the checkpoint.
+    if ((await checkClientId(tx, who.labId, who.id, device, hash)) === 'replay') return { replayed: true };
     const closed = checkpointOpen(ctx.study, ctx.checkpoint, today, allowEarly && who.role !== 'technician');
     if (closed) throw conflict(closed);
     const base = await baselines(tx, ctx.study, ctx.sample, ctx.attrs);
@@ -95,6 +120,7 @@ export async function recordObservations(
     const conflicts: Record<string, string> = {};
     const seen = new Set<number>();
     const rows: (typeof observations.$inferInsert & { attr: AttributeRow; message: string })[] = [];
+    const fromDevice = deviceColumns(device, hash);
     entries.forEach((e, i) => {
       const at = ctx.attrs.find((x) => x.sa.id === e.studyAttributeId);
       if (!at) {
@@ -110,7 +136,7 @@ export async function recordObservations(
         conflicts[`entries.${i}.value`] = `${at.a.name} is already recorded here; correct it with a reason instead`;
         return;
       }
-      const common = { labId: who.labId, studyId: ctx.study.id, sampleId: ctx.sample.id, checkpointId, studyAttributeId: at.sa.id, method: e.method ?? null, recordedBy: who.id, attr: at.a };
+      const common = { labId: who.labId, studyId: ctx.study.id, sampleId: ctx.sample.id, checkpointId, studyAttributeId: at.sa.id, method: e.method ?? null, recordedBy: who.id, attr: at.a, ...fromDevice };
       if (e.notDoneReason) {
         rows.push({ ...common, verdict: 'not_done', notDoneReason: e.notDoneReason, message: '' });
         return;
@@ -153,6 +179,7 @@ export async function recordObservations(
           method: row.method,
           verdict: row.verdict,
           notDoneReason: row.notDoneReason ?? undefined,
+          ...(row.deviceRecordedAt ? { deviceRecordedAt: row.deviceRecordedAt.toISOString(), deviceClockOffsetS: row.deviceClockOffsetS, clientId: row.clientId ?? undefined } : {}),
         },
       })),
     );
@@ -179,5 +206,6 @@ export async function recordObservations(
       ),
     );
     await settleCheckpoint(tx, checkpointId, who.id, ctx.checkpoint);
+    return { replayed: false };
   });
 }

@@ -14,6 +14,7 @@ import { photosFor } from '../photos';
 import { conditionForCautions } from '../storage-conditions';
 import { checkpointView } from '../study/detail';
 import { checkpointOpen, context, samplesAtCheckpoint, type Context } from './context';
+import { deviceTimes } from './device';
 import { baselines, evaluateFor, judgedFrom, valueOf, type AttributeRow, type Value } from './values';
 
 type ObservationRow = typeof observations.$inferSelect;
@@ -31,6 +32,7 @@ export function toView(a: AttributeRow, o: ObservationRow & { who?: string | nul
     recordedAt: o.recordedAt.toISOString(),
     version: o.version,
     voided: o.voided,
+    device: deviceTimes(o),
     investigation: inv
       ? {
           id: inv.id,

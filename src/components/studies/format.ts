@@ -60,6 +60,7 @@ export const CRITERION_KIND_LABELS: Readonly<Record<CriterionKind, string>> = {
   range: 'Within a range',
   change_abs: 'Change from day 0 (±)',
   change_pct: 'Change from day 0 (± %)',
+  delta_e00_max: 'Colour difference from day 0 (ΔE00)',
   worst_grade: 'Worst allowed grade',
   worst_compared: 'Worst allowed versus control',
   must_pass: 'Must pass',

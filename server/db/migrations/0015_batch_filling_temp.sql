@@ -1,0 +1,1 @@
+ALTER TABLE `batches` ADD `filling_temp_c` decimal(5,1);
