@@ -115,6 +115,29 @@ describe('colour from photos on Record', () => {
     await context.close();
   });
 
+  it("a formulator enters the lab's own card: an impossible L* is named beside the field, then the card is chosen", async () => {
+    const context = await rig.browser.newContext({ viewport: TABLET });
+    const page = await context.newPage();
+    const problems = watchPage(page);
+    await signInAs(page, rig.baseUrl, DEMO.formulator);
+    await page.goto(`${rig.baseUrl}/samples/${ovenCode}/checkpoints/${w1Id}`);
+    await page.locator('[data-testid^="colour-measure-"]').first().click();
+    await page.getByTestId('colour-card-own').click();
+    // Element Plus puts the test id on the native input (el-input) or on its wrapper (el-input-number).
+    const field = (id: string) => page.locator(`input[data-testid="${id}"], [data-testid="${id}"] input`);
+    await field('colour-card-name').fill('Lab grey card no. 2');
+    await field('colour-card-L').fill('120');
+    await page.getByTestId('colour-card-save').click();
+    const form = page.getByTestId('colour-card-form');
+    await expect.poll(() => form.textContent()).toContain('L* is at most 100');
+    await field('colour-card-L').fill('52.3');
+    await page.getByTestId('colour-card-save').click();
+    await expect.poll(() => page.getByTestId('colour-card').textContent()).toContain('Lab grey card no. 2');
+    await expect.poll(() => page.getByTestId('colour-card').textContent()).toContain('L* 52.3');
+    expect(problems).toEqual([]);
+    await context.close();
+  });
+
   it('the analysis charts the photo ΔE00 beside the judgement by eye (desktop)', async () => {
     const context = await rig.browser.newContext({ viewport: { width: 1440, height: 900 } });
     const page = await context.newPage();
