@@ -26,6 +26,7 @@ declare module 'vue' {
     CheckpointGrid: typeof import('./components/study/CheckpointGrid.vue')['default']
     ChoiceButtons: typeof import('./components/record/ChoiceButtons.vue')['default']
     CloseInvestigationForm: typeof import('./components/study/CloseInvestigationForm.vue')['default']
+    ColourCardForm: typeof import('./components/photo-colour/ColourCardForm.vue')['default']
     ConditionForm: typeof import('./components/storage/ConditionForm.vue')['default']
     ConditionStrip: typeof import('./components/analysis/ConditionStrip.vue')['default']
     ControlNotice: typeof import('./components/record/ControlNotice.vue')['default']

@@ -3,8 +3,8 @@
  * API on a real MariaDB, the API's file tests again on S3, browser in Debian's chromium).
  *
  * The steps run side by side, since each mostly waits on something else (the compiler, MariaDB,
- * Chromium): the type-check; unit + API tests, then the second half of the browser files; the client
- * build, then the first half of the browser files. Each step's lines are prefixed with its name.
+ * Chromium): the type-check; unit + API tests; the client build, then the browser files in groups.
+ * Each step's lines are prefixed with its name.
  * Arguments are passed to every vitest run (a file filter that matches nothing in one is fine).
  * Ends with one line "keepwell: N passed, N failed, N skipped".
  */
@@ -35,8 +35,7 @@ function step(name: string, cmd: string, cmdArgs: string[]): Promise<boolean> {
 }
 
 mkdirSync('test-results', { recursive: true });
-const reports = { api: 'test-results/vitest-api.json', browser: 'test-results/vitest-browser.json', browser2: 'test-results/vitest-browser-2.json' };
-for (const r of Object.values(reports)) rmSync(r, { force: true });
+const reports = { api: 'test-results/vitest-api.json' };
 const vitest = (report: string, projects: string[]) => [
   'vitest',
   'run',
@@ -49,32 +48,44 @@ const vitest = (report: string, projects: string[]) => [
 ];
 
 /**
- * The browser files in two halves of about equal time: the first starts once the client is built, the
- * second once the API tests are done and a core is free (each half is a vitest with its own MariaDB).
- * With arguments (a file filter, -t) all browser files run in one vitest.
+ * The browser files in groups of about equal time (each group a vitest with its own MariaDB and
+ * Chromium), all started once the client is built, beside the type-check and the unit + API tests.
+ * The browser tests mostly wait (page loads, animations, polls): one vitest for all of them left the
+ * 2-core machine half idle (557 s user + 65 s sys CPU in 580 s wall, `/usr/bin/time npm test`).
+ * Groups are filled longest first from each file's seconds in a recent run (a new file counts 40 s).
+ * KEEPWELL_BROWSER_GROUPS sets the count (default 3). With arguments (a file filter, -t) all browser
+ * files run in one vitest.
  */
+const BROWSER_SECONDS: Record<string, number> = {
+  analysis: 84, 'plan-template': 79, a11y: 70, review: 69, 'plan-study': 59, bench: 46, 'photo-colour': 50,
+  'bench-find': 41, shell: 41, offline: 40, record: 40, formulas: 38, 'product-file': 32, oos: 25, invitation: 15,
+};
 const browserFiles = readdirSync('tests/browser').filter((f) => f.endsWith('.test.ts')).sort();
-const SECOND_HALF = new Set(['plan-template', 'bench', 'shell', 'formulas'].map((n) => `${n}.test.ts`));
-const halves = args.length
-  ? [[] as string[]]
-  : [browserFiles.filter((f) => !SECOND_HALF.has(f)), browserFiles.filter((f) => SECOND_HALF.has(f))].map((h) => h.map((f) => `tests/browser/${f}`));
+const groupCount = args.length ? 1 : Math.max(1, Number(process.env.KEEPWELL_BROWSER_GROUPS ?? 3));
+const groups = Array.from({ length: groupCount }, () => ({ files: [] as string[], seconds: 0 }));
+const weight = (f: string) => BROWSER_SECONDS[f.replace(/\.test\.ts$/, '')] ?? 40;
+for (const f of [...browserFiles].sort((a, b) => weight(b) - weight(a))) {
+  const g = groups.reduce((min, x) => (x.seconds < min.seconds ? x : min));
+  g.files.push(args.length ? '' : `tests/browser/${f}`);
+  g.seconds += weight(f);
+}
+const browserReport = (i: number) => `test-results/vitest-browser${i ? `-${i + 1}` : ''}.json`;
+const reportFiles = [reports.api, ...groups.map((_, i) => browserReport(i))];
+for (const r of reportFiles) rmSync(r, { force: true });
 
 const built = step('client build', 'npx', ['vite', 'build', '--logLevel', 'warn']);
 await Promise.all([
   step('type-check', 'npx', ['vue-tsc', '--noEmit', '-p', 'tsconfig.json']),
-  (async () => {
-    await step('unit+api', 'npx', vitest(reports.api, ['unit', 'api', 'api-s3']));
-    if (halves[1] && (await built)) await step('browser 2', 'npx', [...vitest(reports.browser2, ['browser']), ...halves[1]]);
-  })(),
-  (async () => {
-    if (await built) await step('browser', 'npx', [...vitest(reports.browser, ['browser']), ...halves[0]]);
-  })(),
+  step('unit+api', 'npx', vitest(reports.api, ['unit', 'api', 'api-s3'])),
+  ...groups.map(async (g, i) => {
+    if (await built) await step(`browser ${i + 1}`, 'npx', [...vitest(browserReport(i), ['browser']), ...g.files.filter(Boolean)]);
+  }),
 ]);
 
 let passed = 0;
 let failed = 0;
 let skipped = 0;
-for (const report of Object.values(reports)) {
+for (const report of reportFiles) {
   if (!existsSync(report)) continue;
   const r = JSON.parse(readFileSync(report, 'utf8')) as {
     numPassedTests: number;
@@ -90,7 +101,7 @@ for (const report of Object.values(reports)) {
 // A failed step that left no failed test behind (a compile error, a crash, a setup that threw) counts as one.
 for (const s of steps) {
   if (s.ok) continue;
-  const report = s.name === 'unit+api' ? reports.api : s.name === 'browser' ? reports.browser : s.name === 'browser 2' ? reports.browser2 : null;
+  const report = s.name === 'unit+api' ? reports.api : s.name.startsWith('browser ') ? browserReport(Number(s.name.slice(8)) - 1) : null;
   const counted = report && existsSync(report) && (JSON.parse(readFileSync(report, 'utf8')) as { numFailedTests: number }).numFailedTests > 0;
   if (!counted) failed += 1;
 }
