@@ -45,8 +45,10 @@ export async function startBrowserRig(opts: { demo?: 'people' | 'full' } = {}): 
   // tests): a precache download cut off when a page closes would count as a failed request.
   const newContext = browser.newContext.bind(browser);
   const newPage = browser.newPage.bind(browser);
-  browser.newContext = (o = {}) => newContext({ serviceWorkers: 'block', ...o });
-  browser.newPage = (o = {}) => newPage({ serviceWorkers: 'block', ...o });
+  // Reduced motion unless a test asks otherwise: the app then draws no transitions or chart
+  // animations (src/styles/main.css), so a click or a screenshot never lands mid-slide.
+  browser.newContext = (o = {}) => newContext({ serviceWorkers: 'block', reducedMotion: 'reduce', ...o });
+  browser.newPage = (o = {}) => newPage({ serviceWorkers: 'block', reducedMotion: 'reduce', ...o });
   mkdirSync(SHOTS, { recursive: true });
   return {
     t,
