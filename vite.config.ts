@@ -83,6 +83,9 @@ export default defineConfig({
           globalSetup: ['tests/setup/database.ts', 'tests/setup/browser.ts'],
           testTimeout: 90_000,
           hookTimeout: 120_000,
+          // expect.poll waits 1 s by default: too short for a save answered while the whole suite
+          // loads both cores (a status that flipped in 1.4 s failed a run). A test may still pass its own.
+          expect: { poll: { timeout: 10_000 } },
           // One file at a time (Chromium takes a core), after the other projects when all run in one
           // process; npm test runs this project in a vitest of its own beside the API tests (tests/run.ts).
           fileParallelism: false,

@@ -12,7 +12,7 @@ import { deltaE2000 } from '../../shared/compute/color';
 import { linearRgbToLab, srgbToLinear } from '../../shared/compute/photo-colour';
 import type { BenchResponse, StudyDetail } from '../../shared/schemas/studies';
 import { DEMO, type Client } from '../helpers/app';
-import { axeViolations, SHOTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
+import { axeViolations, SHOTS, signInSettled, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
 import { makeCatalogue, planFor } from '../helpers/fixtures';
 
 const TABLET = { width: 1024, height: 768 } as const;
@@ -77,7 +77,7 @@ describe('colour from photos on Record', () => {
     const context = await rig.browser.newContext({ viewport: TABLET, hasTouch: true });
     const page = await context.newPage();
     const problems = watchPage(page);
-    await signInAs(page, rig.baseUrl, DEMO.technician);
+    await signInSettled(page, rig.baseUrl, DEMO.technician);
     await page.goto(`${rig.baseUrl}/samples/${ovenCode}/checkpoints/${w1Id}`);
     await page.waitForSelector('[data-testid="photo-colour"]');
     await page.locator('[data-testid^="colour-measure-"]').first().click();
@@ -119,7 +119,7 @@ describe('colour from photos on Record', () => {
     const context = await rig.browser.newContext({ viewport: TABLET });
     const page = await context.newPage();
     const problems = watchPage(page);
-    await signInAs(page, rig.baseUrl, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.goto(`${rig.baseUrl}/samples/${ovenCode}/checkpoints/${w1Id}`);
     await page.locator('[data-testid^="colour-measure-"]').first().click();
     await page.getByTestId('colour-card-own').click();
@@ -142,7 +142,7 @@ describe('colour from photos on Record', () => {
     const context = await rig.browser.newContext({ viewport: { width: 1440, height: 900 } });
     const page = await context.newPage();
     const problems = watchPage(page);
-    await signInAs(page, rig.baseUrl, DEMO.formulator);
+    await signInSettled(page, rig.baseUrl, DEMO.formulator);
     await page.goto(`${rig.baseUrl}/studies/${study.id}/analysis`);
     const card = page.getByTestId('delta-e');
     await card.waitFor();
@@ -158,7 +158,7 @@ describe('colour from photos on Record', () => {
     const context = await rig.browser.newContext({ viewport: { width: 390, height: 844 }, hasTouch: true, isMobile: true });
     const page = await context.newPage();
     const problems = watchPage(page);
-    await signInAs(page, rig.baseUrl, DEMO.technician);
+    await signInSettled(page, rig.baseUrl, DEMO.technician);
     await page.goto(`${rig.baseUrl}/samples/${ovenCode}/checkpoints/${w1Id}`);
     await page.locator('[data-testid^="colour-measure-"]').first().click();
     await expect.poll(() => page.getByTestId('colour-de-initial').textContent(), { timeout: 15_000 }).toMatch(/\d+\.\d/);
