@@ -174,6 +174,13 @@ describe('the Bench offline', () => {
     await expect.poll(() => page.getByTestId('outbox-count').textContent()).toContain('3 saved on this device');
     expect(await page.getByTestId(`bench-sample-${s1.code}`).textContent()).toContain('3 of 3');
     await page.screenshot({ path: join(SHOTS, 'offline-bench-reloaded.png'), fullPage: true });
+    // At phone size the outbox bar still shows its count and its button, and nothing scrolls sideways.
+    await page.setViewportSize({ width: 390, height: 844 });
+    expect(await page.getByTestId('outbox-count').isVisible()).toBe(true);
+    expect(await page.getByTestId('outbox-open').isVisible()).toBe(true);
+    expect(await page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390);
+    await page.screenshot({ path: join(SHOTS, 'offline-bench-phone.png') });
+    await page.setViewportSize(TABLET);
     await page.getByTestId('outbox-open').click();
     await page.getByTestId('outbox-dialog').waitFor();
     expect(await page.getByTestId(`outbox-entry-${s1.code}`).count()).toBe(2); // the save and the photo
