@@ -3,34 +3,14 @@
  * low risk (an emulsion in a jar) with an invented challenge-test report attached as a real PDF.
  * Every figure in the report is made up for demonstration; it is not a laboratory result.
  */
-import { createRequire } from 'node:module';
-import { join } from 'node:path';
 import { and, eq } from 'drizzle-orm';
 import type { DbOrTx } from '../db/client';
 import { batches } from '../db/schema';
 import type { FileStore } from '../files';
+import { simplePdf } from '../services/pdf-engine';
 import { saveDocument } from '../services/product-file/documents';
 import { saveRisk } from '../services/product-file/risk';
 import type { SeededFormulas } from './formulas';
-
-const require = createRequire(import.meta.url);
-const pdfmake = require('pdfmake') as {
-  setFonts(f: object): void;
-  setUrlAccessPolicy(cb: (url: string) => boolean): void;
-  setLocalAccessPolicy(cb: (path: string) => boolean): void;
-  createPdf(doc: object): { getBuffer(): Promise<Buffer> };
-};
-const INTER = join(require.resolve('@fontsource/inter/package.json'), '..', 'files');
-
-/** A one-page PDF with a title and lines of text (the same font and access rules as the report). */
-export async function simplePdf(title: string, lines: string[]): Promise<Buffer> {
-  pdfmake.setFonts({ Inter: { normal: join(INTER, 'inter-latin-400-normal.woff'), bold: join(INTER, 'inter-latin-600-normal.woff'), italics: join(INTER, 'inter-latin-400-normal.woff'), bolditalics: join(INTER, 'inter-latin-600-normal.woff') } });
-  pdfmake.setUrlAccessPolicy(() => false);
-  pdfmake.setLocalAccessPolicy((p) => p.startsWith(INTER));
-  return pdfmake
-    .createPdf({ info: { title }, defaultStyle: { font: 'Inter', fontSize: 10 }, content: [{ text: title, fontSize: 15, bold: true, margin: [0, 0, 0, 8] }, ...lines.map((text) => ({ text, margin: [0, 0, 0, 4] }))] })
-    .getBuffer();
-}
 
 const ORGANISMS = ['Pseudomonas aeruginosa', 'Staphylococcus aureus', 'Escherichia coli', 'Candida albicans', 'Aspergillus brasiliensis'] as const;
 

@@ -3,8 +3,6 @@
  * pdfmake, charts rendered by ECharts as SVG on the server, the shipped Inter
  * font, black-and-white friendly (verdicts in words, not colors).
  */
-import { createRequire } from 'node:module';
-import { join } from 'node:path';
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import { COMPARED_LEVEL_LABELS, type ComparedLevel } from '../../shared/compute/criteria';
 import { reasonMethodName } from '../../shared/compute/suggest';
@@ -22,29 +20,7 @@ import { reviewOf } from './reviews';
 import { studyDetail } from './studies';
 import { studyProductFile } from './product-file/expected';
 import { productFileSection } from './product-file/report-section';
-
-const require = createRequire(import.meta.url);
-// pdfmake's server build is CommonJS.
-const pdfmake = require('pdfmake') as {
-  setFonts(f: object): void;
-  setUrlAccessPolicy(cb: (url: string) => boolean): void;
-  setLocalAccessPolicy(cb: (path: string) => boolean): void;
-  createPdf(doc: object): { getBuffer(): Promise<Buffer> };
-};
-const INTER = join(require.resolve('@fontsource/inter/package.json'), '..', 'files');
-pdfmake.setFonts({
-  Inter: {
-    normal: join(INTER, 'inter-latin-400-normal.woff'),
-    bold: join(INTER, 'inter-latin-600-normal.woff'),
-    italics: join(INTER, 'inter-latin-400-normal.woff'),
-    bolditalics: join(INTER, 'inter-latin-600-normal.woff'),
-  },
-});
-// Nothing is fetched from outside; only the shipped font files are read from disk.
-pdfmake.setUrlAccessPolicy(() => false);
-pdfmake.setLocalAccessPolicy((p) => p.startsWith(INTER));
-
-
+import { pdfmake } from './pdf-engine';
 
 const OOS_BENCH_WORDS = { unconfirmed: 'Unconfirmed', remeasured: 'Re-measured', confirmed: 'Confirmed at the bench' } as const;
 /** The shipped Inter subset lacks some symbols: spell them so no empty boxes print. */

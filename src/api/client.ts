@@ -23,7 +23,11 @@ export function setUnauthenticatedHandler(fn: () => void) {
   onUnauthenticated = fn;
 }
 
-async function request<T>(method: Method, path: string, body?: unknown): Promise<T> {
+/**
+ * The fetch options of an API call: JSON accepted, the header that marks the app's own writes
+ * (checked against cross-site requests), and a JSON or multipart body. Also used by the outbox.
+ */
+export function apiInit(method: Method, body?: unknown): RequestInit {
   const headers: Record<string, string> = { Accept: 'application/json' };
   if (method !== 'GET') headers['X-Keepwell-Request'] = '1';
   let payload: BodyInit | undefined;
@@ -32,9 +36,13 @@ async function request<T>(method: Method, path: string, body?: unknown): Promise
     headers['Content-Type'] = 'application/json';
     payload = JSON.stringify(body);
   }
+  return { method, headers, body: payload, credentials: 'same-origin' };
+}
+
+async function request<T>(method: Method, path: string, body?: unknown): Promise<T> {
   let res: Response;
   try {
-    res = await fetch(`/api${path}`, { method, headers, body: payload, credentials: 'same-origin' });
+    res = await fetch(`/api${path}`, apiInit(method, body));
   } catch {
     throw new ApiError(0, 'network', 'Cannot reach the server. Check the connection and try again.');
   }

@@ -7,6 +7,7 @@
  */
 import { recordInput, type RecordEntry, type RecordSheet, type RevisionView } from '@shared/schemas/records';
 import type { SessionUser } from '@shared/schemas/auth';
+import { apiInit } from '@/api/client';
 import { valueText } from '@/components/record/format';
 import { offlineDb, sheetKey, type OutboxConflict, type OutboxEntry } from './db';
 import { keepSheet } from './copy';
@@ -24,16 +25,8 @@ interface Answer {
 
 /** A request without the API client's redirect to sign-in (a 401 here asks for the password instead). */
 async function call(method: 'GET' | 'PUT' | 'POST', path: string, body?: unknown): Promise<Answer | null> {
-  const headers: Record<string, string> = { Accept: 'application/json' };
-  if (method !== 'GET') headers['X-Keepwell-Request'] = '1';
-  let payload: BodyInit | undefined;
-  if (body instanceof FormData) payload = body;
-  else if (body !== undefined) {
-    headers['Content-Type'] = 'application/json';
-    payload = JSON.stringify(body);
-  }
   try {
-    const res = await fetch(path, { method, headers, body: payload, credentials: 'same-origin' });
+    const res = await fetch(path, apiInit(method, body));
     return { status: res.status, body: await res.json().catch(() => null) };
   } catch {
     return null;

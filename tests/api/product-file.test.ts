@@ -8,7 +8,7 @@ import { eq, sql } from 'drizzle-orm';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { auditLog, formulaLines, ingredients, productDocuments, riskAssessments } from '../../server/db/schema';
-import { simplePdf } from '../../server/demo/product-file';
+import { simplePdf } from '../../server/services/pdf-engine';
 import { createTestApp, DEMO, DEMO_PASSWORD, type Client, type TestApp } from '../helpers/app';
 import { makeCatalogue, planFor } from '../helpers/fixtures';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';

@@ -14,7 +14,7 @@ import { join } from 'node:path';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { seedFormulas, type SeededFormulas } from '../../server/demo/formulas';
-import { simplePdf } from '../../server/demo/product-file';
+import { simplePdf } from '../../server/services/pdf-engine';
 import { addDays } from '../../shared/compute/schedule';
 import type { BenchResponse } from '../../shared/schemas/studies';
 import { DEMO, type Client } from '../helpers/app';
