@@ -14,7 +14,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { auditLog, photos } from '../../server/db/schema';
 import { attachmentHeader } from '../../server/services/photos';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
-import { createTestApp, DEMO, type Client, type TestApp } from '../helpers/app';
+import { bytesOf, createTestApp, DEMO, type Client, type TestApp } from '../helpers/app';
 import { makeCatalogue, planFor } from '../helpers/fixtures';
 
 let t: TestApp;
@@ -23,16 +23,6 @@ const uploadsDir = mkdtempSync(join(tmpdir(), 'kw-photos-'));
 const photoDir = join(uploadsDir, 'photos');
 let uploadUrl: string;
 
-/** GET as raw bytes (supertest would otherwise try to read images as text). */
-const bytesOf = (c: Client, path: string) =>
-  c.agent
-    .get(path)
-    .buffer(true)
-    .parse((r, cb) => {
-      const chunks: Buffer[] = [];
-      r.on('data', (b: Buffer) => chunks.push(b));
-      r.on('end', () => cb(null, Buffer.concat(chunks)));
-    });
 const sha256 = (b: Buffer) => createHash('sha256').update(b).digest('hex');
 /** Stored photo files (names under photos/), from the app's file store: a folder, or a bucket in the api-s3 project. */
 const files = async () => {

@@ -9,7 +9,7 @@ import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { auditLog, formulaLines, ingredients, productDocuments, riskAssessments } from '../../server/db/schema';
 import { simplePdf } from '../../server/services/pdf-engine';
-import { createTestApp, DEMO, DEMO_PASSWORD, type Client, type TestApp } from '../helpers/app';
+import { bytesOf, createTestApp, DEMO, DEMO_PASSWORD, type Client, type TestApp } from '../helpers/app';
 import { makeCatalogue, planFor } from '../helpers/fixtures';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 
@@ -25,15 +25,6 @@ const storedFiles = async () => {
   for await (const o of t.files.list('documents/')) keys.push(o.key);
   return keys;
 };
-const bytesOf = (c: Client, path: string) =>
-  c.agent
-    .get(path)
-    .buffer(true)
-    .parse((r, cb) => {
-      const chunks: Buffer[] = [];
-      r.on('data', (b: Buffer) => chunks.push(b));
-      r.on('end', () => cb(null, Buffer.concat(chunks)));
-    });
 
 const challenge = {
   kind: 'challenge_test',

@@ -15,7 +15,7 @@ import { chamberLogs, chamberReadings, photos } from '../../server/db/schema';
 import { chamberLogKey, photoKey, s3Store } from '../../server/files';
 import { createLogger } from '../../server/log';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
-import { Client, createTestApp, DEMO, DEMO_PASSWORD, type TestApp } from '../helpers/app';
+import { Client, bytesOf, createTestApp, DEMO, DEMO_PASSWORD, type TestApp } from '../helpers/app';
 import { makeCatalogue, planFor } from '../helpers/fixtures';
 
 let t: TestApp;
@@ -24,15 +24,6 @@ let photoUrl: string;
 let conditionId: number;
 
 const sha256 = (b: Buffer) => createHash('sha256').update(b).digest('hex');
-const bytesOf = (c: Client, path: string) =>
-  c.agent
-    .get(path)
-    .buffer(true)
-    .parse((r, cb) => {
-      const chunks: Buffer[] = [];
-      r.on('data', (b: Buffer) => chunks.push(b));
-      r.on('end', () => cb(null, Buffer.concat(chunks)));
-    });
 const jpeg = () => sharp({ create: { width: 320, height: 240, channels: 3, background: '#b0a090' } }).jpeg().toBuffer();
 const keys = async (prefix: string) => {
   const out: string[] = [];

@@ -32,6 +32,17 @@ export const DEMO = {
 } as const;
 
 /** A supertest agent that keeps its cookie and sends the CSRF header on changes. */
+/** GET as raw bytes (supertest would otherwise try to read images and PDFs as text). */
+export const bytesOf = (c: Client, path: string) =>
+  c.agent
+    .get(path)
+    .buffer(true)
+    .parse((r, cb) => {
+      const chunks: Buffer[] = [];
+      r.on('data', (b: Buffer) => chunks.push(b));
+      r.on('end', () => cb(null, Buffer.concat(chunks)));
+    });
+
 export class Client {
   readonly agent: ReturnType<typeof supertest.agent>;
   constructor(app: Parameters<typeof supertest.agent>[0]) {
