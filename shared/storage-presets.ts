@@ -25,6 +25,7 @@ export interface StoragePreset {
 export const PRESET_KEYS = [
   'fridge-4',
   'room',
+  'in-use',
   'ich-25-60',
   'ich-30-65',
   'ich-40-75',
@@ -53,6 +54,13 @@ export const STORAGE_PRESETS: readonly StoragePreset[] = [
     source: 'common',
     sourceNote: `${COMMON} Samples on a shelf in the lab, away from sun and heaters, as a customer keeps the product; log the room to know what it saw.`,
     input: { kind: 'constant', name: 'Room temperature shelf', preset: 'Room temperature 22 °C ± 3 °C (common practice)', setpointC: 22, toleranceC: 3 },
+  },
+  {
+    key: 'in-use',
+    label: 'In use: opened daily, room temperature',
+    source: 'common',
+    sourceNote: `${COMMON} The pack is opened and used every day as a customer would (a clean finger or spatula, closed after); the months it stays within its criteria support the period after opening.`,
+    input: { kind: 'constant', name: 'In use, opened daily', preset: 'In use: opened daily, room temperature (common practice)', setpointC: 22, toleranceC: 3, inUse: true },
   },
   {
     key: 'ich-25-60',

@@ -19,6 +19,7 @@ import { columnsOf } from '../services/storage-conditions';
 export const DEMO_LOCATIONS: Record<PresetKey, string> = {
   'fridge-4': 'fridge 1',
   room: 'shelf by the lab bench',
+  'in-use': 'bench drawer, opened each morning',
   'ich-25-60': 'climate cabinet',
   'ich-30-65': 'climate cabinet 2',
   'ich-40-75': 'climate cabinet 3',

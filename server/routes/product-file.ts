@@ -12,9 +12,10 @@ import type { Db } from '../db/client';
 import { FileMissing, sendStream, type FileStore } from '../files';
 import { HttpError, idParam, notFound, parse } from '../http/errors';
 import { findVariantRow } from '../services/formulas';
+import { todayIn } from '../services/studies';
 import { documentKey, documentRow, documentsFor, DOCUMENT_TYPES, saveDocument, type DocumentMime } from '../services/product-file/documents';
 import { studyProductFile } from '../services/product-file/expected';
-import { riskView, saveRisk } from '../services/product-file/risk';
+import { paoBasis, riskView, saveRisk } from '../services/product-file/risk';
 import { studyExists } from '../services/study/detail';
 
 const read = requireRole('technician');
@@ -47,15 +48,18 @@ export function productFileRoutes(db: Db, files: FileStore): Router {
   const r = Router();
 
   r.get('/variants/:id/risk', read, async (req, res) => {
-    res.json({ risk: await riskView(db, member(req).labId, idParam(req.params.id)) });
+    const me = member(req);
+    res.json({ risk: await riskView(db, me.labId, idParam(req.params.id), todayIn(me.lab.timeZone)) });
   });
 
   r.put('/variants/:id/risk', write, async (req, res) => {
     const me = member(req);
     const id = idParam(req.params.id);
     await findVariantRow(db, me.labId, id);
-    await saveRisk(db, me, id, parse(riskInput, req.body));
-    res.json({ risk: await riskView(db, me.labId, id) });
+    const input = parse(riskInput, req.body);
+    const today = todayIn(me.lab.timeZone);
+    await saveRisk(db, me, id, input, await paoBasis(db, me.labId, id, today));
+    res.json({ risk: await riskView(db, me.labId, id, today) });
   });
 
   r.get('/variants/:id/documents', read, async (req, res) => {

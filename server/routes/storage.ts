@@ -99,6 +99,7 @@ function toCondition(c: ConditionRow, logCount: number, latestLog: StorageCondit
     kind: c.kind,
     location: c.location,
     isControl: c.isControl,
+    inUse: c.inUse,
     preset: c.preset,
     notes: c.notes,
     active: c.active,

@@ -39,6 +39,7 @@ export function columnsOf(v: ConditionValues) {
     kind: v.kind,
     location: v.location,
     isControl: v.isControl,
+    inUse: v.inUse,
     preset: v.preset ?? null,
     notes: v.notes ?? null,
   };

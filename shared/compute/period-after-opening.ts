@@ -6,6 +6,7 @@
  * Pure functions: no I/O, no clock.
  */
 import type { PackType } from './microbial-risk';
+import { DAYS_PER_MONTH } from './suggest';
 
 export const PAO_STEPS = [6, 12, 18, 24] as const;
 export type PaoMonths = (typeof PAO_STEPS)[number];
@@ -82,3 +83,51 @@ const packWords: Record<PackType, string> = {
   airless_pump: 'an airless pump',
   single_use: 'a single-use pack',
 };
+
+/** One pull of an in-use test: its offset and the verdicts of the readings recorded there. */
+export interface InUsePull {
+  unit: 'day' | 'week' | 'month' | 'cycle';
+  n: number;
+  /** Stored verdicts of the readings at this pull ('pass', 'fail', 'no_criterion', 'not_done', ...); empty when none yet. */
+  verdicts: string[];
+}
+
+/** An offset in months (cycles are not time: null). */
+export function offsetMonths(unit: InUsePull['unit'], n: number): number | null {
+  if (unit === 'month') return n;
+  if (unit === 'week') return (n * 7) / DAYS_PER_MONTH;
+  if (unit === 'day') return n / DAYS_PER_MONTH;
+  return null;
+}
+
+/**
+ * How long an in-use test has run without a failure: pulls in time order, up to the first pull with
+ * no reading yet; a failure stops it at the pull before. Returns the months covered (one decimal,
+ * rounded down) and the reason, or null months when no pull after day 0 has passed.
+ */
+export function inUseCoverage(pulls: InUsePull[]): { months: number | null; reason: string } {
+  const timed = pulls
+    .map((p) => ({ ...p, months: offsetMonths(p.unit, p.n) }))
+    .filter((p): p is InUsePull & { months: number } => p.months != null && p.months > 0)
+    .sort((a, b) => a.months - b.months);
+  const label = (p: { unit: string; n: number }) => `${p.unit} ${p.n}`;
+  let covered: (typeof timed)[number] | null = null;
+  for (const p of timed) {
+    // A reading marked not done says nothing about the product.
+    if (!p.verdicts.some((v) => v !== 'not_done')) {
+      return covered
+        ? { months: floor1(covered.months), reason: `No failure up to ${label(covered)}; ${label(p)} not recorded yet.` }
+        : { months: null, reason: `No in-use pull recorded yet (the first is ${label(p)}).` };
+    }
+    if (p.verdicts.includes('fail')) {
+      return covered
+        ? { months: floor1(covered.months), reason: `A failure at ${label(p)}: covered up to ${label(covered)}.` }
+        : { months: null, reason: `A failure at the first in-use pull (${label(p)}): no period covered.` };
+    }
+    covered = p;
+  }
+  if (!covered) return { months: null, reason: 'No in-use pull after day 0 in the plan.' };
+  return { months: floor1(covered.months), reason: `No failure at any pull, up to ${label(covered)}.` };
+}
+
+const floor1 = (x: number) => Math.floor(x * 10 + 1e-9) / 10;

@@ -1,6 +1,6 @@
 /** The product file: microbial-risk panel input and documents (bodies and answers). */
 import { z } from 'zod';
-import { PACK_TYPES, type Factor } from '../compute/microbial-risk';
+import { PACK_TYPES, type Factor, type RiskInputs } from '../compute/microbial-risk';
 import { PAO_STEPS } from '../compute/period-after-opening';
 import { calendarDate, text } from './common';
 
@@ -42,17 +42,7 @@ export type RiskInput = z.infer<typeof riskInput>;
 export type RiskEntered = RiskInput;
 
 /** Every factor input an assessment was made with (entered or derived). */
-export interface RiskSnapshot {
-  waterPercent: number | null;
-  alcoholPercent: number | null;
-  aluminiumChlorohydratePercent: number | null;
-  ph: number | null;
-  waterActivity: number | null;
-  fillingTempC: number | null;
-  solventBased: boolean;
-  oxidising: boolean;
-  pack: (typeof PACK_TYPES)[number] | null;
-}
+export type RiskSnapshot = RiskInputs;
 
 export interface RiskView {
   variantId: number;
@@ -69,6 +59,14 @@ export interface RiskView {
     fillingTempC: number | null;
     fillingTempSource: string | null;
   };
+  /**
+   * In-use data from the variant's studies (a storage condition marked "in use, opened daily"):
+   * months without a failure, and where they come from; null when no study has such a condition.
+   * It wins over a hand-entered figure.
+   */
+  inUse: { months: number | null; source: string } | null;
+  /** The shelf life the period after opening is held to: a signed decision's, else the engine's suggestion. */
+  shelfLife: { months: number; source: string } | null;
   assessment: null | {
     entered: RiskEntered;
     factors: Factor[];

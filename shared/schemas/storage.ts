@@ -42,6 +42,8 @@ const common = {
   name: requiredText(120, 'Enter a name, e.g. "45 °C oven"'),
   location: text().trim().max(120, 'At most 120 characters').optional().default(''),
   isControl: z.boolean({ error: 'Yes or no' }).optional().default(false),
+  /** An in-use test: opened and used daily, as a customer would. */
+  inUse: z.boolean({ error: 'Yes or no' }).optional().default(false),
   preset: optionalText(80),
   notes: optionalText(2000),
 };
@@ -237,6 +239,7 @@ export interface StorageCondition {
   kind: ConditionKind;
   location: string;
   isControl: boolean;
+  inUse: boolean;
   preset: string | null;
   notes: string | null;
   active: boolean;

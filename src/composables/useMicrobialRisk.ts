@@ -116,7 +116,9 @@ export function useMicrobialRisk(variantId: Ref<number | null>) {
       oxidising: form.oxidising,
       pack: form.pack ?? null,
     });
-    return { outcome, pao: suggestPao({ lowRisk: outcome.lowRisk, pack: form.pack ?? null, inUseMonths: form.inUseMonths ?? null, shelfLifeMonths: null }) };
+    // Study in-use data wins over the hand-entered figure; the shelf life caps the period.
+    const inUseMonths = view.value.inUse ? view.value.inUse.months : (form.inUseMonths ?? null);
+    return { outcome, pao: suggestPao({ lowRisk: outcome.lowRisk, pack: form.pack ?? null, inUseMonths, shelfLifeMonths: view.value.shelfLife?.months ?? null }) };
   });
 
   async function save(): Promise<boolean> {

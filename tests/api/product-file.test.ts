@@ -248,10 +248,63 @@ describe('signing a release', () => {
     expect((await sign({ variantId: y })).status).toBe(201);
     expect((await sign({ variantId: x, comment: 'Challenge test ordered; release limited to the pilot run.' })).status).toBe(201);
     // Each signature's audit row names the documents it covered, with their SHA-256.
+    // The PAO is held to the signed shelf life: a hand-entered 24-month in-use test (no in-use study) in an airless pump
+    // would give 24 months, the release signed 12 (common practice, no published source; see period-after-opening.ts).
+    const capped = (await formulator.put(`/api/variants/${y}/risk`, { ...panel, ph: 2.5, pack: 'airless_pump', inUseMonths: 24 })).body.risk;
+    expect(capped.inUse).toBeNull();
+    expect(capped.shelfLife).toEqual({ months: 12, source: 'Signed decision on "Test study"' });
+    expect(capped.assessment.suggestedPao.months).toBe(12);
+    expect(capped.assessment.suggestedPao.reasons.join(' ')).toMatch(/Not longer than the shelf life of 12 months/);
     const signed = await t.db.select().from(auditLog).where(eq(auditLog.action, 'sign'));
     expect(signed.map((r) => (r.newValue as { documents: { kind: string; sha256: string }[] }).documents.map((d) => `${d.kind}:${d.sha256}`))).toEqual([
       [`safety_assessment:${sha256(pdf)}`],
       [`safety_assessment:${sha256(pdf)}`],
     ]);
+  });
+});
+
+describe('in-use data from an in-use study condition', () => {
+  it('a fail at week 8 of the in-use condition stops the covered time at week 4 (28 / 30.4375 days per month = 0.9) and the study wins over a typed value', async () => {
+    const cat = await makeCatalogue(t.db, t.labs[0].id, 'In-use cream');
+    const [x] = cat.variantIds;
+    const cond = await formulator.post('/api/storage-conditions', { kind: 'constant', name: 'In use, opened daily', setpointC: 22, toleranceC: 3, inUse: true });
+    expect(cond.status, JSON.stringify(cond.body)).toBe(201);
+    const plan = planFor(cat, addDays(localDateInZone(new Date(), 'Europe/Berlin'), -70));
+    plan.conditions = [
+      plan.conditions[0],
+      { conditionId: cond.body.condition.id, role: 'accelerated' as const, template: 'accelerated-12w', offsets: [{ unit: 'week', n: 4 }, { unit: 'week', n: 8 }] },
+    ];
+    const created = await formulator.post('/api/studies', plan);
+    expect(created.status, JSON.stringify(created.body)).toBe(201);
+    const study = (await formulator.post(`/api/studies/${created.body.study.id}/start`)).body.study;
+    const inUseSc = study.conditions.find((c: { conditionId: number }) => c.conditionId === cond.body.condition.id);
+    const record = async (cpId: number, ph: number) => {
+      for (const smp of study.samples.filter((s: { studyConditionId: number | null; variantId?: number }) => s.studyConditionId === inUseSc.id)) {
+        const saved = await technician.put(`/api/samples/${smp.code}/checkpoints/${cpId}/observations`, {
+          entries: study.attributes.map((a: { id: number; code: string }) => ({ studyAttributeId: a.id, value: a.code === 'ph' ? ph : a.code === 'separation' ? 0 : 'no_change' })),
+        });
+        expect(saved.status, JSON.stringify(saved.body)).toBe(200);
+      }
+    };
+    const cps = study.checkpoints.filter((c: { studyConditionId: number | null; kind: string }) => c.studyConditionId === inUseSc.id && c.kind === 'pull');
+    const at = (n: number) => cps.find((c: { offset: { n: number } }) => c.offset.n === n).id;
+    for (const cp of study.checkpoints.filter((c: { kind: string }) => c.kind === 'initial')) {
+      for (const smp of study.samples.filter((s: { studyConditionId: number | null }) => s.studyConditionId == null)) {
+        await technician.put(`/api/samples/${smp.code}/checkpoints/${cp.id}/observations`, {
+          entries: study.attributes.map((a: { id: number; code: string }) => ({ studyAttributeId: a.id, value: a.code === 'ph' ? 5.5 : a.code === 'separation' ? 0 : 'no_change' })),
+        });
+      }
+    }
+    // Week 4 not recorded yet: no months covered.
+    expect((await formulator.get(`/api/variants/${x}/risk`)).body.risk.inUse.months).toBeNull();
+    await record(at(4), 5.6);
+    await record(at(8), 7.0); // pH moved 1.5 > 0.5: a fail
+    const res = await formulator.put(`/api/variants/${x}/risk`, { ...panel, ph: 2.5, pack: 'airless_pump', inUseMonths: 24 });
+    expect(res.status).toBe(200);
+    const risk = res.body.risk;
+    expect(risk.inUse.months).toBe(0.9);
+    expect(risk.inUse.source).toMatch(/In-use condition "In use, opened daily" of "Test study".*A failure at week 8: covered up to week 4/);
+    // The study's 0.9 months, not the typed 24, feed the PAO.
+    expect(risk.assessment.suggestedPao.months).not.toBe(24);
   });
 });

@@ -25,7 +25,7 @@ describe('storage presets', () => {
 
   it('say "common practice" on every other preset', () => {
     const others = STORAGE_PRESETS.filter((p) => p.source !== 'ich');
-    expect(others.map((p) => p.key).sort()).toEqual(['centrifuge-3000', 'freeze-thaw', 'fridge-4', 'oven-45', 'oven-50', 'room', 'window-daylight']);
+    expect(others.map((p) => p.key).sort()).toEqual(['centrifuge-3000', 'freeze-thaw', 'fridge-4', 'in-use', 'oven-45', 'oven-50', 'room', 'window-daylight']);
     for (const p of others) expect(p.sourceNote).toMatch(/Common practice.*no published source/);
     // Common practice, no published source: freeze-thaw -10 °C / 25 °C, 24 h each; centrifuge 3000 rpm 30 min.
     expect(presetByKey('freeze-thaw')!.input).toMatchObject({ kind: 'cycling', lowC: -10, highC: 25, hoursLow: 24, hoursHigh: 24 });
@@ -34,6 +34,8 @@ describe('storage presets', () => {
     // Room temperature: a shelf in the lab, 22 °C ± 3 °C (common practice; no heat or cold caution).
     expect(presetByKey('room')!.input).toMatchObject({ kind: 'constant', setpointC: 22, toleranceC: 3 });
     expect(conditionCautions(presetByKey('room')!.input as never)).toEqual([]);
+    // In use: opened daily at room temperature (common practice); marked in use so its results feed the period after opening.
+    expect(presetByKey('in-use')!.input).toMatchObject({ kind: 'constant', setpointC: 22, toleranceC: 3, inUse: true });
   });
 
   it('are all valid condition inputs with unique keys', () => {

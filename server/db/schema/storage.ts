@@ -13,6 +13,8 @@ export const storageConditions = mysqlTable(
     kind: mysqlEnum('kind', CONDITION_KINDS).notNull(),
     location: varchar('location', { length: 120 }).notNull().default(''),
     isControl: boolean('is_control').notNull().default(false),
+    /** An in-use test: the pack opened and used daily, as a customer would (feeds the period after opening). */
+    inUse: boolean('in_use').notNull().default(false),
     /** Name of the preset it came from, e.g. "ICH Q1A(R2) long term 25 °C / 60 % RH". */
     preset: varchar('preset', { length: 80 }),
     // constant

@@ -112,6 +112,7 @@ export const FIELD_WORDS: Readonly<Record<string, string>> = {
   kind: 'kind',
   location: 'location',
   isControl: 'control condition',
+  inUse: 'in-use test (opened daily)',
   preset: 'preset',
   setpointC: 'set point',
   rhPercent: 'relative humidity',

@@ -7,10 +7,26 @@ import { and, desc, eq, inArray, isNotNull } from 'drizzle-orm';
 import { assessRisk, changedFactors, formulaShares, packFromText, RISK_CAUTION, type RiskInputs } from '../../../shared/compute/microbial-risk';
 import { suggestPao } from '../../../shared/compute/period-after-opening';
 import type { RiskInput, RiskSnapshot, RiskView } from '../../../shared/schemas/product-file';
-import type { DbOrTx } from '../../db/client';
+import type { Db, DbOrTx } from '../../db/client';
 import { attributes, batches, checkpoints, observations, riskAssessments, samples, studies, studyAttributes, users } from '../../db/schema';
 import { audit } from '../audit';
 import { findVariantRow, loadLines } from '../formulas';
+import { inUseFromStudies, shelfLifeFor } from './in-use';
+
+/** What the suggested period after opening rests on besides the risk outcome and the pack. */
+export interface PaoBasis {
+  inUse: RiskView['inUse'];
+  shelfLife: RiskView['shelfLife'];
+}
+
+/** The in-use data of the variant's studies and its shelf life (signed, else suggested). */
+export async function paoBasis(db: Db, labId: number, variantId: number, today: string): Promise<PaoBasis> {
+  const [inUse, shelfLife] = await Promise.all([inUseFromStudies(db, labId, variantId), shelfLifeFor(db, labId, variantId, today)]);
+  return { inUse, shelfLife };
+}
+
+/** Study in-use data wins over a hand-entered figure (kept for an in-use test done elsewhere). */
+const inUseMonthsOf = (basis: PaoBasis, entered: RiskInput) => (basis.inUse ? basis.inUse.months : entered.inUseMonths);
 
 const round = (n: number, d: number) => Math.round(n * 10 ** d) / 10 ** d;
 
@@ -84,9 +100,9 @@ const INPUT_WORDS: Record<keyof RiskInputs, string> = {
   pack: 'pack',
 };
 
-export async function riskView(db: DbOrTx, labId: number, variantId: number): Promise<RiskView> {
+export async function riskView(db: Db, labId: number, variantId: number, today: string): Promise<RiskView> {
   await findVariantRow(db, labId, variantId);
-  const [lines, readings, pack, [row]] = await Promise.all([
+  const [lines, readings, pack, [row], basis] = await Promise.all([
     loadLines(db, labId, variantId),
     initialReadings(db, labId, variantId),
     latestPack(db, labId, variantId),
@@ -95,6 +111,7 @@ export async function riskView(db: DbOrTx, labId: number, variantId: number): Pr
       .from(riskAssessments)
       .innerJoin(users, eq(users.id, riskAssessments.updatedBy))
       .where(and(eq(riskAssessments.labId, labId), eq(riskAssessments.variantId, variantId))),
+    paoBasis(db, labId, variantId, today),
   ]);
   const formula = formulaShares(lines);
   let assessment: RiskView['assessment'] = null;
@@ -107,7 +124,7 @@ export async function riskView(db: DbOrTx, labId: number, variantId: number): Pr
       factors: outcome.factors,
       lowRisk: row.a.lowRisk,
       text: row.a.outcomeText,
-      suggestedPao: suggestPao({ lowRisk: row.a.lowRisk, pack: stored.pack, inUseMonths: row.a.entered.inUseMonths, shelfLifeMonths: null }),
+      suggestedPao: suggestPao({ lowRisk: row.a.lowRisk, pack: stored.pack, inUseMonths: inUseMonthsOf(basis, row.a.entered), shelfLifeMonths: basis.shelfLife?.months ?? null }),
       decidedPaoMonths: row.a.decidedPaoMonths,
       updatedBy: row.who,
       updatedAt: row.a.updatedAt.toISOString(),
@@ -127,19 +144,25 @@ export async function riskView(db: DbOrTx, labId: number, variantId: number): Pr
       fillingTempC: pack.fillingTempC,
       fillingTempSource: pack.fillingSource,
     },
+    inUse: basis.inUse,
+    shelfLife: basis.shelfLife,
     assessment,
     caution: RISK_CAUTION,
   };
 }
 
-/** Saves the panel: the entered values, the factor inputs with them, the outcome; one audit row. */
-export async function saveRisk(db: DbOrTx, who: { id: number; labId: number }, variantId: number, input: RiskInput): Promise<void> {
+/**
+ * Saves the panel: the entered values, the factor inputs with them, the outcome; one audit row.
+ * `basis` (paoBasis) gives the in-use data and shelf life; without it (the demo) the in-use data is read here.
+ */
+export async function saveRisk(db: DbOrTx, who: { id: number; labId: number }, variantId: number, input: RiskInput, basis?: PaoBasis): Promise<void> {
+  const b = basis ?? { inUse: await inUseFromStudies(db, who.labId, variantId), shelfLife: null };
   await db.transaction(async (tx) => {
     const v = await findVariantRow(tx, who.labId, variantId, true);
     const formula = formulaShares(await loadLines(tx, who.labId, variantId));
     const factors = snapshotOf(input, formula);
     const outcome = assessRisk(factors);
-    const pao = suggestPao({ lowRisk: outcome.lowRisk, pack: input.pack, inUseMonths: input.inUseMonths, shelfLifeMonths: null });
+    const pao = suggestPao({ lowRisk: outcome.lowRisk, pack: input.pack, inUseMonths: inUseMonthsOf(b, input), shelfLifeMonths: b.shelfLife?.months ?? null });
     const values = {
       entered: input,
       factors,

@@ -1,0 +1,1 @@
+ALTER TABLE `storage_conditions` ADD `in_use` boolean DEFAULT false NOT NULL;
