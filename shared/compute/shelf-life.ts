@@ -611,7 +611,7 @@ export function shelfLifeMultiBatch(
     };
   };
   if (used.length === 0) {
-    return out([], [], null, null, emptyResult('insufficient_data', points.length ? 'every batch has results at one time only' : 'no results'));
+    return out([], [], null, null, emptyResult('insufficient_data', points.length ? 'Every batch has results at one time only, so no line can be fitted yet.' : 'no results'));
   }
 
   if (pooling.model === 'pooled') {

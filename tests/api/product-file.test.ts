@@ -252,7 +252,7 @@ describe('signing a release', () => {
     // would give 24 months, the release signed 12 (common practice, no published source; see period-after-opening.ts).
     const capped = (await formulator.put(`/api/variants/${y}/risk`, { ...panel, ph: 2.5, pack: 'airless_pump', inUseMonths: 24 })).body.risk;
     expect(capped.inUse).toBeNull();
-    expect(capped.shelfLife).toEqual({ months: 12, source: 'Signed decision on "Test study"' });
+    expect(capped.shelfLife).toEqual({ months: 12, source: 'signed decision on "Test study"' });
     expect(capped.assessment.suggestedPao.months).toBe(12);
     expect(capped.assessment.suggestedPao.reasons.join(' ')).toMatch(/Not longer than the shelf life of 12 months/);
     const signed = await t.db.select().from(auditLog).where(eq(auditLog.action, 'sign'));

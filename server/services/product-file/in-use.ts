@@ -59,7 +59,7 @@ export async function shelfLifeFor(db: Db, labId: number, variantId: number, tod
     .where(and(eq(decisions.labId, labId), eq(decisions.variantId, variantId), isNotNull(decisions.shelfLifeMonths), ne(decisions.outcome, 'not_released')))
     .orderBy(desc(decisions.id))
     .limit(1);
-  if (signed?.months != null) return { months: signed.months, source: `Signed decision on "${signed.title}"` };
+  if (signed?.months != null) return { months: signed.months, source: `signed decision on "${signed.title}"` };
   const [latest] = await db
     .selectDistinct({ id: studies.id, title: studies.title })
     .from(samples)
@@ -71,5 +71,5 @@ export async function shelfLifeFor(db: Db, labId: number, variantId: number, tod
   if (!latest) return null;
   const analysis = await analyzeStudy(db, labId, latest.id, today);
   const months = analysis.suggestions.find((s) => s.variantId === variantId)?.result.months ?? null;
-  return months != null && months > 0 ? { months, source: `Suggested by the analysis of "${latest.title}" (not yet signed)` } : null;
+  return months != null && months > 0 ? { months, source: `suggested by the analysis of "${latest.title}", not yet signed` } : null;
 }
