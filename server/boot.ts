@@ -7,6 +7,7 @@ import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import type { Config } from './config';
 import { createDb, createPool, type Db, type DbTarget, type Pool } from './db/client';
+import { BULK_POOL_SIZE, useBulkPool } from './db/bulk';
 import { grantAppAccount } from './db/grants';
 import { launchMariaDb, type LaunchedMariaDb } from './db/mariadb';
 import { assertSchemaCurrent, runMigrations } from './db/migrate';
@@ -59,11 +60,17 @@ export async function openDatabase(config: Config, log: Logger, opts: { fast?: b
     }
   }
   const db = createDb(pool);
+  // Bulk writes over TCP beside the socket (db/bulk.ts): the launched server's own address, or the
+  // one the primary hands its workers.
+  const bulkTarget = launched ? launched.app : process.env.KW_BULK_DATABASE_URL;
+  const bulk = bulkTarget ? createPool(bulkTarget, BULK_POOL_SIZE) : null;
+  if (bulk) useBulkPool(db, bulk);
   return {
     db,
     pool,
     launched,
     async close() {
+      await bulk?.end();
       await pool.end();
       await launched?.stop();
     },

@@ -53,7 +53,9 @@ async function runPrimary(): Promise<void> {
 
   const launched = database.launched;
   const url = config.DATABASE_URL ?? databaseUrl({ ...launched!.app, socketPath: launched!.admin.socketPath });
-  const env = { KW_ROLE: 'worker', DATABASE_URL: url, LOAD_DEMO: 'never', JOBS_IN_APP: 'false' };
+  // Chamber-log imports go over TCP beside the socket (db/bulk.ts); an external DATABASE_URL is used as given.
+  const bulk = config.DATABASE_URL ? {} : { KW_BULK_DATABASE_URL: databaseUrl(launched!.app) };
+  const env = { KW_ROLE: 'worker', DATABASE_URL: url, LOAD_DEMO: 'never', JOBS_IN_APP: 'false', ...bulk };
   cluster.setupPrimary({ exec: fileURLToPath(new URL('./main.ts', import.meta.url)), execArgv: process.execArgv });
 
   const mailer = mailerFor({ db, config, log });

@@ -26,7 +26,7 @@ import {
 import type { Db, DbOrTx } from '../db/client';
 import { chamberLogs, storageConditions } from '../db/schema';
 import { HttpError } from '../http/errors';
-import { poolOf } from '../db/prepared';
+import { bulkPoolOf } from '../db/bulk';
 import { audit } from './audit';
 import { CsvProblem, readChamberCsv, type CsvLayout } from './chamber-csv';
 import { HourlyRollups, summarizeFromRollups, writeRollups } from './chamber-rollups';
@@ -281,9 +281,9 @@ export async function importChamberLog(db: Db, input: ImportInput): Promise<numb
     let seq = 0;
     let pending: Promise<unknown> | null = null;
     const stream = createReadStream(input.filePath, { highWaterMark: 256 * 1024 });
-    // One connection, a COMMIT every BATCHES_PER_COMMIT inserts: each commit is an fsync (and a
+    // One connection (of the bulk pool: TCP beside a socket, db/bulk.ts), a COMMIT every BATCHES_PER_COMMIT inserts: each commit is an fsync (and a
     // write set on Galera), so 21 of them for a year of minute readings instead of 106.
-    const conn = await poolOf(db).getConnection();
+    const conn = await bulkPoolOf(db).getConnection();
     try {
       await conn.query('START TRANSACTION');
       let inTransaction = 0;

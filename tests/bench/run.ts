@@ -252,7 +252,7 @@ async function main() {
   checkAbort();
 
   t = performance.now();
-  const { port, child, workers } = await startServer({ KW_BENCH_DB: JSON.stringify(appTarget) });
+  const { port, child, workers } = await startServer({ KW_BENCH_DB: JSON.stringify(appTarget), KW_BENCH_BULK_DB: JSON.stringify(launched.app) });
   cleanups.push({ name: 'stop bench server', fn: () => stopChild(child) });
   const baseUrl = `http://127.0.0.1:${port}`;
   const serverPids = [child.pid!, ...workers];
@@ -379,7 +379,7 @@ async function main() {
       `buffer pool ${Math.round(Number(server.bp) / 2 ** 20)} MiB, data on ${onTmpfs ? 'tmpfs' : 'disk'} (${base})`,
   );
   say(`Dataset: ${counts.labs} labs, ${counts.users} members, ${Number(counts.audit).toLocaleString('en-US')} audit rows; sessions grow as the sign-in run adds them.`);
-  say(`Load: autocannon over loopback, no pipelining, ${SECONDS} s per run after ${WARMUP} s warm-up. App in ${workers.length ? `${workers.length} worker processes of a child (cluster module, as \`npm start\`)` : 'one child process'} (production config, pool of ${process.env.KW_BENCH_POOL ?? 20} connections per process, sign-in IP limiter lifted). App and raw reach MariaDB over its socket. Raw: mysql2 pool of ${RAW_POOL_SIZE}, app account, as many async loops as HTTP connections.`);
+  say(`Load: autocannon over loopback, no pipelining, ${SECONDS} s per run after ${WARMUP} s warm-up. App in ${workers.length ? `${workers.length} worker processes of a child (cluster module, as \`npm start\`)` : 'one child process'} (production config, pool of ${process.env.KW_BENCH_POOL ?? 20} connections per process, sign-in IP limiter lifted). App and raw reach MariaDB over its socket; the app's chamber-log imports over TCP (server/db/bulk.ts). Raw: mysql2 pool of ${RAW_POOL_SIZE}, app account, as many async loops as HTTP connections.`);
   say('per s: app = responses/s, raw = operations/s (an operation may be several statements), both count ÷ wall time of the run. p50/p99 from every response (ms, not rounded). app÷raw = app req/s ÷ raw ops/s.');
   say(`CPU%: share of one core used during the run by the app server (all its processes) / mariadbd / load generator (this process) / everything else; all share these ${cpu.length} cores.`);
   const busy = rows.filter((r) => (r.m.cpu?.others ?? 0) > 15);

@@ -17,11 +17,13 @@ import type { Server } from 'node:http';
 import { availableParallelism } from 'node:os';
 import { createApp } from '../../server/app';
 import { loadConfig } from '../../server/config';
+import { BULK_POOL_SIZE, useBulkPool } from '../../server/db/bulk';
 import { createDb, createPool } from '../../server/db/client';
 import type { ConnectionTarget } from '../../server/db/mariadb';
 import { createLogger } from '../../server/log';
 
 const target = JSON.parse(process.env.KW_BENCH_DB ?? 'null') as ConnectionTarget | null;
+const bulkTarget = JSON.parse(process.env.KW_BENCH_BULK_DB ?? 'null') as ConnectionTarget | null;
 if (!target) {
   console.error('KW_BENCH_DB (JSON connection target) is required; run the benchmark with `npm run bench`.');
   process.exit(2);
@@ -75,6 +77,8 @@ async function primary() {
 async function serve() {
   const pool = createPool(target!, poolSize);
   const db = createDb(pool);
+  // As `npm start`: chamber-log imports over TCP beside the socket (server/db/bulk.ts).
+  if (bulkTarget) useBulkPool(db, createPool(bulkTarget, BULK_POOL_SIZE));
   const { app, close } = createApp({
     db,
     pool,
