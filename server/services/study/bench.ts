@@ -3,10 +3,11 @@
  * including overdue ones, grouped by location then condition. The initial test (retained samples, in
  * no condition) has its own group; a control reading names the pulls it is read beside.
  */
-import { and, asc, eq, inArray, isNull, or, sql } from 'drizzle-orm';
+import { and, asc, eq, inArray, isNull, or, sql, type Placeholder } from 'drizzle-orm';
 import { addDays, checkpointState } from '../../../shared/compute/schedule';
 import type { BenchResponse } from '../../../shared/schemas/studies';
-import type { Db } from '../../db/client';
+import type { Db, DbOrTx } from '../../db/client';
+import { reusable } from '../../db/prepared';
 import { batches, checkpoints, observations, products, samples, storageConditions, studies, studyAttributes, studyConditions, variants } from '../../db/schema';
 import { unconfirmedBySample } from '../oos';
 import { INITIAL_GROUP, orderBenchGroups } from '../../../shared/compute/bench';
@@ -15,11 +16,22 @@ import { studiesOfMember } from './responsibles';
 /** Where the Bench lists the initial test: its samples are the batches' retained samples. */
 export { INITIAL_GROUP };
 
-/** The Bench's first query: open checkpoints of running studies whose window opens by `until`. Exported for `npm run bench`. */
-export function benchCheckpointsQuery(db: Db, labId: number, until: string) {
+/** The checkpoint columns the Bench uses, by name (not the whole row). */
+const benchCheckpointColumns = {
+  id: checkpoints.id,
+  kind: checkpoints.kind,
+  label: checkpoints.label,
+  studyId: checkpoints.studyId,
+  studyConditionId: checkpoints.studyConditionId,
+  dueDate: checkpoints.dueDate,
+  windowBefore: checkpoints.windowBefore,
+  windowAfter: checkpoints.windowAfter,
+};
+
+function checkpointsOpenBy(db: DbOrTx, labId: number | Placeholder, until: string | Placeholder) {
   return db
     .select({
-      cp: checkpoints,
+      cp: benchCheckpointColumns,
       studyTitle: studies.title,
       productName: products.name,
       condId: storageConditions.id,
@@ -44,6 +56,14 @@ export function benchCheckpointsQuery(db: Db, labId: number, until: string) {
     )
     .orderBy(asc(storageConditions.location), asc(storageConditions.name), asc(checkpoints.dueDate));
 }
+
+/** The Bench's first query: open checkpoints of running studies whose window opens by `until`. Exported for `npm run bench` (its SQL). */
+export function benchCheckpointsQuery(db: Db, labId: number, until: string) {
+  return checkpointsOpenBy(db, labId, until);
+}
+
+/** The same query built once per process (db/prepared.ts `reusable`): the Bench runs it on every poll. */
+const openCheckpoints = reusable((db) => checkpointsOpenBy(db, sql.placeholder('labId'), sql.placeholder('until')));
 
 /**
  * The Bench's follow-up queries (run together): samples (each condition's, and the retained samples of
@@ -85,7 +105,7 @@ export function benchDetailQueries(db: Db, labId: number, scIds: number[], study
 /** `userId`: the signed-in member, to mark the studies they are responsible for (`study.mine`). */
 export async function bench(db: Db, labId: number, today: string, days: number, userId = 0): Promise<BenchResponse> {
   const until = addDays(today, days);
-  const cps = await benchCheckpointsQuery(db, labId, until);
+  const cps = await openCheckpoints(db, { labId, until });
 
   const counts = { overdue: 0, due: 0, upcoming: 0 };
   if (!cps.length) return { today, until, counts, groups: [] };
