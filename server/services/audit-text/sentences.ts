@@ -58,7 +58,7 @@ export function auditSentence(r: AuditSource, names: AuditNames, fmt: LabFormat)
     case 'create:risk_assessment':
     case 'update:risk_assessment': {
       const pao = typeof n.decidedPaoMonths === 'number' ? `; period after opening ${n.decidedPaoMonths} months` : '';
-      return withNote(`${r.action === 'create' ? 'Assessed' : 'Re-assessed'} the microbial risk of variant ${str(n.variant) ?? '?'}: ${cut(str(n.outcome) ?? '?', 200)}${pao}`, reason);
+      return withNote(`${r.action === 'create' ? 'Assessed' : 'Re-assessed'} the microbial risk of variant ${str(n.variant) ?? '?'}: ${cut(str(n.outcome) ?? '?', 200).replace(/\.$/, '')}${pao}`, reason);
     }
     case 'create:product_document':
       return end(
@@ -154,6 +154,8 @@ export function auditSentence(r: AuditSource, names: AuditNames, fmt: LabFormat)
     }
     case 'import:study':
       return withNote(`Imported the study ${q(str(n.title) ?? study?.title ?? '?')}${demoNote(n)}`, reason);
+    case 'import:photo_regions':
+      return withNote(`Imported the product and reference-card regions marked on ${typeof n.photos === 'number' ? plural(n.photos, 'photo') : 'photos'}${inStudy}${demoNote(n)}`, reason);
 
     // -------------------------------------------------------------- decisions
     case 'sign:decision': {
