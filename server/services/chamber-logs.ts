@@ -281,8 +281,8 @@ export async function importChamberLog(db: Db, input: ImportInput): Promise<numb
     let seq = 0;
     let pending: Promise<unknown> | null = null;
     const stream = createReadStream(input.filePath, { highWaterMark: 256 * 1024 });
-    // One connection (of the bulk pool: TCP beside a socket, db/bulk.ts), a COMMIT every BATCHES_PER_COMMIT inserts: each commit is an fsync (and a
-    // write set on Galera), so 21 of them for a year of minute readings instead of 106.
+    // One connection of the bulk pool (db/bulk.ts), a COMMIT every BATCHES_PER_COMMIT inserts: each
+    // commit is an fsync (and a write set on Galera), so 21 for a year of minute readings, not 106.
     const conn = await bulkPoolOf(db).getConnection();
     try {
       await conn.query('START TRANSACTION');

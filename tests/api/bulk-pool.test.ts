@@ -42,6 +42,9 @@ afterAll(async () => {
   await t?.close();
 });
 
+/** The app pool's connections taken while one upload runs (the import's, and the transactions' around it). */
+let ownCallsWithoutBulk = 0;
+
 describe('the bulk pool', () => {
   it("is the app's own pool until one is set", async () => {
     expect(bulkPoolOf(t.db)).toBe(poolOf(t.db));
@@ -49,6 +52,7 @@ describe('the bulk pool', () => {
     const res = await upload('own-pool.csv', 0);
     expect(res.status, JSON.stringify(res.body)).toBe(201);
     expect(spy).toHaveBeenCalled();
+    ownCallsWithoutBulk = spy.mock.calls.length;
     spy.mockRestore();
     expect(await storedReadings(res.body.log.id)).toBe(ROWS);
   });
@@ -56,10 +60,14 @@ describe('the bulk pool', () => {
   it('takes the import once set, and stores every reading once', async () => {
     useBulkPool(t.db, bulk);
     expect(bulkPoolOf(t.db)).toBe(bulk);
+    const own = vi.spyOn(poolOf(t.db), 'getConnection');
     const viaBulk = vi.spyOn(bulk, 'getConnection');
     const res = await upload('bulk-pool.csv', ROWS);
     expect(res.status, JSON.stringify(res.body)).toBe(201);
     expect(viaBulk).toHaveBeenCalledTimes(1);
+    // The import's one connection moved from the app's pool to the bulk pool; the rest stayed.
+    expect(own.mock.calls.length).toBe(ownCallsWithoutBulk - 1);
+    own.mockRestore();
     viaBulk.mockRestore();
     expect(await storedReadings(res.body.log.id)).toBe(ROWS);
   });
