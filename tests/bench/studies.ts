@@ -202,9 +202,10 @@ export function recordScenario(): Scenario {
         { conditionId: c['ich-40-75'], role: 'accelerated', offsets },
         { conditionId: c['oven-45'], role: 'accelerated', offsets },
       ];
-      // Pairs needed: HTTP warm-up + run and the raw run, at a generous 600 saves/s each.
+      // Pairs needed: HTTP warm-up + run and the raw run, at a generous 2,000 saves/s each (the raw
+      // writes reached 1,315/s on 2026-12-05 and ran out of the 600/s allowance before their run ended).
       const pairsPerStudy = lab.lots.length * 2 * conditions.length * OPEN_PER_CONDITION;
-      const studies = Math.max(30, Math.ceil(((ctx.seconds * 2 + 4) * 600) / pairsPerStudy));
+      const studies = Math.max(30, Math.ceil(((ctx.seconds * 2 + 4) * 2000) / pairsPerStudy));
       const specs: BulkStudySpec[] = Array.from({ length: studies }, (_, i) => ({
         title: `Recording trial ${i + 1}`,
         status: 'running',
