@@ -69,8 +69,8 @@ export function recordRoutes(db: Db, fileStore: FileStore): Router {
     const code = String(req.params.code);
     const checkpointId = idParam(req.params.checkpointId);
     const today = todayIn(me.lab.timeZone);
-    const { replayed } = await recordObservations(db, recorder(me), code, checkpointId, input.entries, today, input.allowEarly ?? false, input);
-    res.json({ sheet: await recordSheet(db, me.labId, code, checkpointId, today), replayed });
+    const { replayed, read } = await recordObservations(db, recorder(me), code, checkpointId, input.entries, today, input.allowEarly ?? false, input);
+    res.json({ sheet: await recordSheet(db, me.labId, code, checkpointId, today, read), replayed });
   });
 
   r.post('/observations/:id/corrections', requireMember, async (req, res) => {

@@ -78,12 +78,22 @@ function fullEntries(s: Study, v: { ph: number; viscosity: number; separation: n
 
 const put = (c: Client, code: string, cpId: number, body: object) => c.put(`/api/samples/${code}/checkpoints/${cpId}/observations`, body);
 
+/**
+ * A save answers with the Record sheet built from what its transaction read (issue 14): it must equal
+ * the sheet read afresh, at the initial test, a pull, and when the save closes the checkpoint.
+ */
+async function expectAnswerFresh(res: { body: { sheet: unknown } }, code: string, cpId: number) {
+  const fresh = await technician.get(`/api/samples/${code}/checkpoints/${cpId}`);
+  expect(res.body.sheet).toEqual(fresh.body.sheet);
+}
+
 describe('recording a checkpoint', () => {
   it('records the initial test, evaluates every criterion kind on the server, and closes the checkpoint when complete', async () => {
     const day0 = initial(study);
     for (const [i, s] of study.samples.filter((x) => x.studyConditionId == null).entries()) {
       const res = await put(technician, s.code, day0.id, { entries: fullEntries(study, { ph: 5.3 + i * 0.1, viscosity: 12000, separation: 0, odor: 'no_change', pack: true, mass: 52 }) });
       expect(res.status, JSON.stringify(res.body)).toBe(200);
+      await expectAnswerFresh(res, s.code, day0.id);
     }
     const sheet = (await technician.get(`/api/samples/${retained(study).code}/checkpoints/${day0.id}`)).body.sheet;
     expect(sheet.sample.condition).toBeNull(); // a retained sample, in no condition
@@ -100,6 +110,7 @@ describe('recording a checkpoint', () => {
       entries: fullEntries(study, { ph: 5.9, viscosity: 9000, separation: 2, odor: 'marked', pack: false, mass: 61 }),
     });
     expect(res.status).toBe(200);
+    await expectAnswerFresh(res, s.code, w1.id);
     const byCode = Object.fromEntries(res.body.sheet.attributes.map((a: { attribute: { code: string }; current: unknown }) => [a.attribute.code, a.current]));
     expect(byCode.ph.verdict).toBe('fail'); // 0.6 from 5.3, allowed ±0.5
     expect(byCode.viscosity.verdict).toBe('fail'); // -25 %, allowed ±20 %
@@ -117,6 +128,7 @@ describe('recording a checkpoint', () => {
     const ok = await put(technician, s2.code, w1.id, {
       entries: fullEntries(study, { ph: 5.8, viscosity: 10000, separation: 1, odor: 'slight', pack: true, mass: 40 }),
     });
+    await expectAnswerFresh(ok, s2.code, w1.id);
     const ok2 = Object.fromEntries(ok.body.sheet.attributes.map((a: { attribute: { code: string }; current: { verdict: string } }) => [a.attribute.code, a.current.verdict]));
     // pH 5.8 vs its batch's initial 5.4: 0.4 passes; viscosity -16.7 % passes; boundaries pass.
     expect(ok.body.sheet.attributes[0].baseline).toMatchObject({ label: 'Initial', sampleCode: retained(study, 1).code });
@@ -144,6 +156,7 @@ describe('recording a checkpoint', () => {
       entries: [{ studyAttributeId: attr(study, 'ph'), value: 5.4 }, { studyAttributeId: attr(study, 'viscosity'), notDoneReason: 'Viscometer out for calibration' }],
     });
     expect(res.status).toBe(200);
+    await expectAnswerFresh(res, s.code, w1.id);
     expect(res.body.sheet.checkpoint.state).not.toBe('done');
     expect(res.body.sheet.attributes[1].current).toMatchObject({ verdict: 'not_done', notDoneReason: 'Viscometer out for calibration' });
   });

@@ -13,6 +13,7 @@ import { conflict, HttpError } from '../../http/errors';
 import { auditMany } from '../audit';
 import { openInvestigations } from '../oos';
 import { checkpointOpen, context, samplesAtCheckpoint } from './context';
+import type { KnownSheetInputs } from './sheet';
 import { checkClientId, deviceColumns, isDuplicateKey, saveHash, type DeviceSave } from './device';
 import { baselines, columnsFor, evaluateFor, judgedFrom, valueOf, type AttributeRow } from './values';
 
@@ -23,6 +24,15 @@ export interface Recorder {
 }
 
 type ObservationRow = typeof observations.$inferSelect;
+
+/**
+ * A save's outcome. `read`: what its transaction read (sample, study, the checkpoint as settled,
+ * attributes, baselines), which the Record sheet in the answer reuses instead of reading again (issue 14).
+ */
+export interface SaveResult {
+  replayed: boolean;
+  read?: KnownSheetInputs;
+}
 
 export const unprocessable = (fields: Record<string, string>) =>
   new HttpError(422, 'unprocessable', Object.values(fields)[0] ?? 'Check the values', fields);
@@ -45,9 +55,9 @@ const recordedAt = reusable((db) => db.select({ studyAttributeId: observations.s
  * Marks the checkpoint done when every sample has every attribute recorded (or not done with a reason), or reopens it.
  * `locked`: the checkpoint row as this transaction read it with FOR UPDATE (saves reading it again).
  */
-export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId: number, locked?: typeof checkpoints.$inferSelect): Promise<void> {
+export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId: number, locked?: typeof checkpoints.$inferSelect): Promise<typeof checkpoints.$inferSelect> {
   const cp = locked ?? (await checkpointById(tx, { id: checkpointId }))[0];
-  if (cp.kind === 'extra_day0') return;
+  if (cp.kind === 'extra_day0') return cp;
   let sampleCount: number, attrCount: number, recorded: number;
   if (cp.kind !== 'initial') {
     const [c] = await pullCounts(tx, { scId: cp.studyConditionId, studyId: cp.studyId, id: checkpointId });
@@ -64,12 +74,17 @@ export async function settleCheckpoint(tx: DbOrTx, checkpointId: number, userId:
   // Always one write to the checkpoint row, so concurrent saves on two cluster nodes conflict (see checkpoints.settles).
   const settles = sql`${checkpoints.settles} + 1`;
   if (complete && cp.status === 'open') {
-    await tx.update(checkpoints).set({ status: 'done', closedAt: new Date(), closedBy: userId, settles }).where(eq(checkpoints.id, checkpointId));
-  } else if (!complete && cp.status === 'done') {
-    await tx.update(checkpoints).set({ status: 'open', closedAt: null, closedBy: null, settles }).where(eq(checkpoints.id, checkpointId));
-  } else {
-    await tx.update(checkpoints).set({ settles }).where(eq(checkpoints.id, checkpointId));
+    const closed = { status: 'done' as const, closedAt: new Date(), closedBy: userId };
+    await tx.update(checkpoints).set({ ...closed, settles }).where(eq(checkpoints.id, checkpointId));
+    return { ...cp, ...closed, settles: cp.settles + 1 };
   }
+  if (!complete && cp.status === 'done') {
+    const reopened = { status: 'open' as const, closedAt: null, closedBy: null };
+    await tx.update(checkpoints).set({ ...reopened, settles }).where(eq(checkpoints.id, checkpointId));
+    return { ...cp, ...reopened, settles: cp.settles + 1 };
+  }
+  await tx.update(checkpoints).set({ settles }).where(eq(checkpoints.id, checkpointId));
+  return { ...cp, settles: cp.settles + 1 };
 }
 
 /**
@@ -86,7 +101,7 @@ export async function recordObservations(
   today: string,
   allowEarly: boolean,
   device: DeviceSave = {},
-): Promise<{ replayed: boolean }> {
+): Promise<SaveResult> {
   const hash = saveHash(code, checkpointId, entries);
   try {
     return await saveOnce(db, who, code, checkpointId, entries, today, allowEarly, device, hash);
@@ -107,7 +122,7 @@ async function saveOnce(
   allowEarly: boolean,
   device: DeviceSave,
   hash: string,
-): Promise<{ replayed: boolean }> {
+): Promise<SaveResult> {
   return db.transaction(async (tx) => {
     const ctx = await context(tx, who.labId, code, checkpointId, true);
     // A resend from a device's outbox answers before the open check: its first send may have closed the checkpoint.
@@ -205,7 +220,10 @@ async function saveOnce(
           : [],
       ),
     );
-    await settleCheckpoint(tx, checkpointId, who.id, ctx.checkpoint);
-    return { replayed: false };
+    const settled = await settleCheckpoint(tx, checkpointId, who.id, ctx.checkpoint);
+    // Readings at the initial test or a day-0 pull are themselves baselines (values.ts baselineRows):
+    // there the sheet reads them again; elsewhere they are as this transaction read them.
+    const givesBaseline = ctx.checkpoint.kind !== 'pull' || (ctx.checkpoint.offsetN === 0 && ctx.checkpoint.offsetUnit !== 'cycle');
+    return { replayed: false, read: { ctx: { ...ctx, checkpoint: settled }, ...(givesBaseline ? {} : { base }) } };
   });
 }

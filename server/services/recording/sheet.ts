@@ -15,7 +15,7 @@ import { conditionForCautions } from '../storage-conditions';
 import { checkpointView } from '../study/detail';
 import { checkpointOpen, context, samplesAtCheckpoint, type Context } from './context';
 import { deviceTimes } from './device';
-import { baselines, evaluateFor, judgedFrom, valueOf, type AttributeRow, type Value } from './values';
+import { baselines, evaluateFor, judgedFrom, valueOf, type AttributeRow, type Baseline, type Value } from './values';
 
 type ObservationRow = typeof observations.$inferSelect;
 type InvestigationRow = typeof oosInvestigations.$inferSelect;
@@ -225,11 +225,22 @@ async function controlFor(db: DbOrTx, ctx: Context, role: string | null): Promis
   return { values, reading: null };
 }
 
-export async function recordSheet(db: Db, labId: number, code: string, checkpointId: number, today: string): Promise<RecordSheet> {
-  const ctx = await context(db, labId, code, checkpointId);
+/** What a save's transaction already read for this sample and checkpoint (see `SaveResult` in save.ts). */
+export interface KnownSheetInputs {
+  ctx: Context;
+  /** Left out where the save's own readings are baselines (the initial test, a day-0 pull). */
+  base?: Map<number, Baseline>;
+}
+
+/**
+ * The Record sheet of one sample at one checkpoint. `known`: the context and baselines a save just
+ * read in its transaction (committed, the checkpoint as it settled it), so its answer skips reading them again.
+ */
+export async function recordSheet(db: Db, labId: number, code: string, checkpointId: number, today: string, known?: KnownSheetInputs): Promise<RecordSheet> {
+  const ctx = known?.ctx ?? (await context(db, labId, code, checkpointId));
   const at = { sampleId: ctx.sample.id, checkpointId };
   const [base, current, previous, siblings, photos, cond, meta, invs] = await Promise.all([
-    baselines(db, ctx.study, ctx.sample, ctx.attrs),
+    known?.base ?? baselines(db, ctx.study, ctx.sample, ctx.attrs),
     currentReadings(db, at),
     // The latest earlier checkpoint's value of this sample, per attribute.
     previousReadings(db, { sampleId: ctx.sample.id, due: ctx.checkpoint.dueDate }),
