@@ -4,7 +4,7 @@
  * route (AppShell, then BenchView), and every chunk those import statically, each counted once.
  * Dynamic imports (other pages, charts) are not counted. Sizes gzip at zlib's default level (6), as Vite reports them and a server sends them.
  *
- *   node --import tsx tests/bench/client-size.ts [dist]     (also printed by `npm run bench`)
+ *   node --import tsx tests/bench/client-size.ts [dist]     (a full `npm run bench` builds the client and lists this figure among its goals)
  */
 import { existsSync, readdirSync, readFileSync, statSync } from 'node:fs';
 import { join } from 'node:path';

@@ -25,7 +25,7 @@
  * (the app server writes a V8 CPU profile there when it stops; open it in Chromium's DevTools).
  * A scenario that fails is reported and skipped; the exit code is then 1.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync, statfsSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import { join } from 'node:path';
@@ -39,6 +39,7 @@ import { launchMariaDb } from '../../server/db/mariadb';
 import { runMigrations } from '../../server/db/migrate';
 import { seedDemo } from '../../server/demo/seed';
 import { generateDataset } from './dataset';
+import { benchInitialJs, BENCH_INITIAL_JS_GOAL_KB } from './client-size';
 import { abort, CpuWatch, DEFAULT_CONNECTIONS, runHttp, runRaw, waitForQuiet, type Measured } from './measure';
 import type { BenchContext, Goal, GoalResult, HttpLoad, Scenario, ScenarioExport } from './scenario';
 import { coreScenarios } from './scenarios';
@@ -366,6 +367,30 @@ async function main() {
       const message = err instanceof Error ? err.message : String(err);
       failures.push({ scenario: s.name, message });
       say(`  ✗ ${s.name} failed: ${message}`);
+    }
+  }
+
+  // The Bench's initial JavaScript: a full run builds the client into dist/ (as `npm start` does) and
+  // measures it; alone, after a build: tests/bench/client-size.ts.
+  if (!ONLY) {
+    try {
+      say('Building the client (vite build) to measure the Bench\'s initial JavaScript…');
+      const built = spawnSync(process.execPath, [fileURLToPath(new URL('../../node_modules/vite/bin/vite.js', import.meta.url)), 'build', '--logLevel', 'warn'], {
+        cwd: fileURLToPath(new URL('../..', import.meta.url)),
+        stdio: 'inherit',
+      });
+      if (built.status !== 0) throw new Error(`vite build exited with ${built.status}`);
+      const js = benchInitialJs();
+      const kb = js.gzip / 1000;
+      goals.push({
+        scenario: 'client',
+        what: `Bench's initial JS, dist/ of ${js.builtAt.toISOString().slice(0, 16)}`,
+        measured: `${kb.toFixed(1)} kB gzip (${js.files.length} files)`,
+        goal: `<= ${BENCH_INITIAL_JS_GOAL_KB} kB gzip`,
+        met: kb <= BENCH_INITIAL_JS_GOAL_KB,
+      });
+    } catch (err) {
+      say(`  client: not measured (${err instanceof Error ? err.message : String(err)})`);
     }
   }
 
