@@ -380,6 +380,9 @@ describe('Label sheet', () => {
     // US Letter, 2 5/8 x 1 in, 30 per sheet.
     await page.getByTestId('paper').getByText('US Letter').click();
     await expect.poll(() => page.locator('.sheet').first().getAttribute('data-layout')).toBe('letter-30');
+    // Polled: once a run measured the A4 label (240 px) just after the switch, right after printing the A4 PDF.
+    const letterWidth = async () => Math.round((await page.getByTestId('label').first().boundingBox())!.width);
+    await expect.poll(letterWidth).toBe(Math.round(2.625 * 96));
     const letterBox = (await page.getByTestId('label').first().boundingBox())!;
     expect(letterBox.width).toBeCloseTo(2.625 * 96, 0);
     expect(letterBox.height).toBeCloseTo(96, 0);
