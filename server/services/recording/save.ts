@@ -15,7 +15,7 @@ import { openInvestigations } from '../oos';
 import { checkpointOpen, context, samplesAtCheckpoint } from './context';
 import type { KnownSheetInputs } from './sheet';
 import { checkClientId, deviceColumns, isDuplicateKey, saveHash, type DeviceSave } from './device';
-import { baselines, columnsFor, evaluateFor, judgedFrom, valueOf, type AttributeRow } from './values';
+import { baselines, columnsFor, evaluateFor, judgedFrom, mayBeBaseline, valueOf, type AttributeRow } from './values';
 
 export interface Recorder {
   id: number;
@@ -221,9 +221,7 @@ async function saveOnce(
       ),
     );
     const settled = await settleCheckpoint(tx, checkpointId, who.id, ctx.checkpoint);
-    // Readings at the initial test or a day-0 pull are themselves baselines (values.ts baselineRows):
-    // there the sheet reads them again; elsewhere they are as this transaction read them.
-    const givesBaseline = ctx.checkpoint.kind !== 'pull' || (ctx.checkpoint.offsetN === 0 && ctx.checkpoint.offsetUnit !== 'cycle');
-    return { replayed: false, read: { ctx: { ...ctx, checkpoint: settled }, ...(givesBaseline ? {} : { base }) } };
+    // Where this save's readings may be baselines, the sheet reads them again; elsewhere they are as read here.
+    return { replayed: false, read: { ctx: { ...ctx, checkpoint: settled }, ...(mayBeBaseline(ctx.checkpoint) ? {} : { base }) } };
   });
 }

@@ -116,6 +116,15 @@ const baselineRows = reusable((db) =>
 );
 
 /**
+ * Whether readings at this checkpoint can be baselines ({@link baselineRows}: the initial test, or a
+ * day-0 pull that is not a cycle; the SQL also leaves out mechanical conditions, which this keeps in).
+ * Anything else leaves a sample's baselines as they were.
+ */
+export function mayBeBaseline(cp: { kind: string; offsetN: number; offsetUnit: string }): boolean {
+  return cp.kind !== 'pull' || (cp.offsetN === 0 && cp.offsetUnit !== 'cycle');
+}
+
+/**
  * The baseline of every attribute for one sample: the reading of its batch's initial test (the
  * retained sample of the same replicate first). Studies recorded before the initial test existed
  * fall back to a day 0 of the sample's own condition, else of any condition of the batch.

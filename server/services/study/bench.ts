@@ -28,7 +28,11 @@ const benchCheckpointColumns = {
   windowAfter: checkpoints.windowAfter,
 };
 
-function checkpointsOpenBy(db: DbOrTx, labId: number | Placeholder, until: string | Placeholder) {
+/**
+ * The Bench's first query: open checkpoints of running studies whose window opens by `until`, with
+ * values or placeholders. Exported for `npm run bench` (its SQL).
+ */
+export function benchCheckpointsQuery(db: DbOrTx, labId: number | Placeholder, until: string | Placeholder) {
   return db
     .select({
       cp: benchCheckpointColumns,
@@ -57,13 +61,8 @@ function checkpointsOpenBy(db: DbOrTx, labId: number | Placeholder, until: strin
     .orderBy(asc(storageConditions.location), asc(storageConditions.name), asc(checkpoints.dueDate));
 }
 
-/** The Bench's first query: open checkpoints of running studies whose window opens by `until`. Exported for `npm run bench` (its SQL). */
-export function benchCheckpointsQuery(db: Db, labId: number, until: string) {
-  return checkpointsOpenBy(db, labId, until);
-}
-
 /** The same query built once per process (db/prepared.ts `reusable`): the Bench runs it on every poll. */
-const openCheckpoints = reusable((db) => checkpointsOpenBy(db, sql.placeholder('labId'), sql.placeholder('until')));
+const openCheckpoints = reusable((db) => benchCheckpointsQuery(db, sql.placeholder('labId'), sql.placeholder('until')));
 
 /**
  * The Bench's follow-up queries (run together): samples (each condition's, and the retained samples of
