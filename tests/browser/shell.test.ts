@@ -3,6 +3,8 @@ import { join } from 'node:path';
 import { DEMO, DEMO_PASSWORD } from '../helpers/app';
 import { SHOTS, VIEWPORTS, signInAs, startBrowserRig, watchPage, type BrowserRig } from '../helpers/browser';
 
+const PHONE = { width: 390, height: 844 } as const;
+
 let rig: BrowserRig;
 beforeAll(async () => {
   rig = await startBrowserRig();
@@ -69,6 +71,22 @@ describe('navigation per role', () => {
 });
 
 describe('changing one\'s password from the user menu', () => {
+  it('opens the change-password dialog within a phone screen (390 x 844), loaded on first opening', async () => {
+    const page = await rig.browser.newPage({ viewport: PHONE });
+    const problems = watchPage(page);
+    await signInAs(page, rig.baseUrl, DEMO.formulator);
+    await page.getByTestId('me-menu').click();
+    await page.getByTestId('change-password').click();
+    await page.getByTestId('current-password').waitFor();
+    await page.waitForTimeout(400); // the dialog's opening animation
+    const box = (await page.locator('.el-dialog').filter({ has: page.getByTestId('change-password-form') }).boundingBox())!;
+    expect(box.x).toBeGreaterThanOrEqual(0);
+    expect(box.x + box.width).toBeLessThanOrEqual(PHONE.width);
+    await page.screenshot({ path: join(SHOTS, 'change-password-phone.png') });
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
   it('refuses a wrong current password, a mismatch and a weak password beside their fields, then changes it and keeps the session', async () => {
     const page = await rig.browser.newPage({ viewport: VIEWPORTS.desktop });
     const problems = watchPage(page);
