@@ -27,6 +27,12 @@ export async function startS3rver(): Promise<{ endpoint: string; stop(): Promise
   const dir = mkdtempSync(join(tmpdir(), 'keepwell-s3rver-'));
   const server = new S3rver({ address: '127.0.0.1', port: 0, silent: true, directory: dir });
   const addr = (await server.run()) as { port: number };
+  // Node's 5 s keep-alive would close idle sockets the SDK may be reusing at that moment: an upload
+  // (a stream, which the SDK does not retry) once failed with "socket hang up" under CI load. Object
+  // stores keep idle connections longer; so does this one.
+  const http = (server as unknown as { httpServer: import('node:http').Server }).httpServer;
+  http.keepAliveTimeout = 65_000;
+  http.headersTimeout = 66_000;
   return {
     endpoint: `http://127.0.0.1:${addr.port}`,
     async stop() {
