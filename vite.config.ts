@@ -71,6 +71,9 @@ export default defineConfig({
           isolate: false,
           globalSetup: ['tests/setup/database.ts', 'tests/setup/tools.ts', 'tests/setup/s3.ts'],
           testTimeout: 30_000,
+          // Once more after a failure, listed by npm test (see the browser project): the local S3 server
+          // (s3rver) dropped a connection once under load, which the SDK does not retry for a stream.
+          retry: 1,
           hookTimeout: 60_000,
         },
       },
@@ -86,6 +89,11 @@ export default defineConfig({
           // expect.poll waits 1 s by default: too short for a save answered while the whole suite
           // loads both cores (a status that flipped in 1.4 s failed a run). A test may still pass its own.
           expect: { poll: { timeout: 10_000 } },
+          // A test that fails is run once more: a browser test on a loaded 2-core machine still misses a
+          // moment now and then (one in about three full runs failed one of ~300 tests, each time a
+          // different one). npm test lists every test that passed only on its retry, with the first
+          // failure, so a flaky test stays visible (tests/run.ts); fix it rather than live with it.
+          retry: 1,
           // One file at a time (Chromium takes a core), after the other projects when all run in one
           // process; npm test runs this project in a vitest of its own beside the API tests (tests/run.ts).
           fileParallelism: false,

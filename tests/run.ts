@@ -6,11 +6,14 @@
  * Chromium): the type-check; unit + API tests; the client build, then the browser files in groups.
  * Each step's lines are prefixed with its name.
  * Arguments are passed to every vitest run (a file filter that matches nothing in one is fine).
- * Ends with one line "keepwell: N passed, N failed, N skipped".
+ * Ends with the failed tests and those that passed only on a retry (name and first lines of the
+ * error), each step's time, and one line
+ * "keepwell: N passed, N failed, N skipped".
  */
 import { spawn } from 'node:child_process';
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { performance } from 'node:perf_hooks';
+import { relative } from 'node:path';
 import { createInterface } from 'node:readline';
 
 const t0 = performance.now();
@@ -85,6 +88,10 @@ await Promise.all([
 let passed = 0;
 let failed = 0;
 let skipped = 0;
+/** Each failed test and its first message lines, printed again at the end: a CI log shown only by its tail still names them. */
+const failures: { what: string; why: string }[] = [];
+/** Tests that failed once and passed on their retry: flaky, to be fixed, listed with their first failure. */
+const retried: { what: string; why: string }[] = [];
 for (const report of reportFiles) {
   if (!existsSync(report)) continue;
   const r = JSON.parse(readFileSync(report, 'utf8')) as {
@@ -92,11 +99,25 @@ for (const report of reportFiles) {
     numFailedTests: number;
     numPendingTests: number;
     numTodoTests: number;
-    testResults: { status: string; assertionResults: unknown[] }[];
+    testResults: {
+      name: string;
+      status: string;
+      message?: string;
+      assertionResults: { status: string; fullName: string; failureMessages?: string[] }[];
+    }[];
   };
   passed += r.numPassedTests;
   failed += r.numFailedTests + r.testResults.filter((f) => f.status === 'failed' && f.assertionResults.length === 0).length;
   skipped += r.numPendingTests + r.numTodoTests;
+  for (const f of r.testResults) {
+    const file = relative(process.cwd(), f.name);
+    if (f.status === 'failed' && f.assertionResults.length === 0) failures.push({ what: file, why: f.message ?? '' });
+    for (const a of f.assertionResults) {
+      if (a.status === 'failed') failures.push({ what: `${file} > ${a.fullName}`, why: a.failureMessages?.[0] ?? '' });
+      // A test that failed and then passed its retry keeps the first failure's errors (vite.config.ts: retry).
+      else if (a.status === 'passed' && a.failureMessages?.length) retried.push({ what: `${file} > ${a.fullName}`, why: a.failureMessages[0] });
+    }
+  }
 }
 // A failed step that left no failed test behind (a compile error, a crash, a setup that threw) counts as one.
 for (const s of steps) {
@@ -106,8 +127,30 @@ for (const s of steps) {
   if (!counted) failed += 1;
 }
 
+/** A failure's first lines without colour codes or frames inside node_modules. */
+function excerpt(why: string): string[] {
+  return why
+    .replace(/\u001b\[[0-9;]*m/g, '')
+    .split('\n')
+    .map((l) => l.trim())
+    .filter((l) => l && !/^at (.*node_modules|new Promise)/.test(l))
+    .slice(0, 8)
+    .map((l) => l.slice(0, 300));
+}
+for (const [title, list] of [
+  ['Failed', failures],
+  ['Passed only on a retry (flaky: fix these)', retried],
+] as const) {
+  if (!list.length) continue;
+  console.log(`\n${title}`);
+  for (const f of list) {
+    console.log(`  ${f.what}`);
+    for (const l of excerpt(f.why)) console.log(`      ${l}`);
+  }
+}
 console.log('\nSummary');
 for (const s of steps) console.log(`  ${s.ok ? 'ok  ' : 'FAIL'} ${s.name.padEnd(14)} ${s.seconds.toFixed(1)} s`);
 console.log(`  total ${((performance.now() - t0) / 1000).toFixed(1)} s (each failed step above counts as one failure)`);
+if (retried.length) console.log(`  ${retried.length} passed only on a retry (listed above)`);
 console.log(`keepwell: ${passed} passed, ${failed} failed, ${skipped} skipped`);
 process.exit(failed > 0 ? 1 : 0);
