@@ -18,6 +18,23 @@ export async function rows<T>(db: Db, statement: string, params: (string | numbe
   return r as unknown as T[];
 }
 
+/** A statement and its values, for {@link listRows}. */
+export interface Statement {
+  sql: string;
+  values: unknown[];
+}
+
+/**
+ * Runs one statement whose values include lists of varying length (an array value expands in
+ * `IN (?)`, mysql2's client-side formatting) and returns its rows as plain objects. Sent as text, not
+ * prepared: a server-side statement per list length would pile up on every connection. A list must
+ * not be empty (`IN ()` is not SQL).
+ */
+export async function listRows<T>(db: Db, s: Statement): Promise<T[]> {
+  const [r] = await poolOf(db).query<RowDataPacket[]>(s.sql, s.values);
+  return r as unknown as T[];
+}
+
 type Executable<R> = { execute(values?: Record<string, unknown>): Promise<R> };
 
 /**

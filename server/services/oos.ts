@@ -190,19 +190,6 @@ export async function openCounts(db: DbOrTx, labId: number, studyIds: number[]):
   return out;
 }
 
-/** Unconfirmed failing results per (checkpoint, sample), for the Bench. */
-export async function unconfirmedBySample(db: DbOrTx, labId: number, checkpointIds: number[]): Promise<Map<string, number>> {
-  const out = new Map<string, number>();
-  if (!checkpointIds.length) return out;
-  const rows = await db
-    .select({ cp: oosInvestigations.checkpointId, s: oosInvestigations.sampleId, n: sql<number>`count(*)` })
-    .from(oosInvestigations)
-    .where(and(eq(oosInvestigations.labId, labId), inArray(oosInvestigations.checkpointId, checkpointIds), eq(oosInvestigations.benchStep, 'unconfirmed'), eq(oosInvestigations.status, 'open')))
-    .groupBy(oosInvestigations.checkpointId, oosInvestigations.sampleId);
-  for (const r of rows) out.set(`${r.cp}:${r.s}`, Number(r.n));
-  return out;
-}
-
 async function lockedInvestigation(tx: DbOrTx, who: OosActor, id: number) {
   const [row] = await tx
     .select({ i: oosInvestigations, o: observations, sa: studyAttributes, a: attributes, study: studies, sample: samples, cp: checkpoints })

@@ -4,4 +4,4 @@ export { checkPlan, planCalendar, planOf, previewPlan, savePlan, type CheckedPla
 export { freshSampleCodes, materializeStudy, newSampleCode, startStudy } from './study/start';
 export { amendStudy, markMissed } from './study/amend';
 export { checkpointView, listStudies, studyDetail } from './study/detail';
-export { bench, benchCheckpointsQuery, benchDetailQueries, INITIAL_GROUP } from './study/bench';
+export { bench, benchCheckpointsQuery, benchDetailStatements, INITIAL_GROUP } from './study/bench';

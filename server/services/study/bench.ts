@@ -3,15 +3,13 @@
  * including overdue ones, grouped by location then condition. The initial test (retained samples, in
  * no condition) has its own group; a control reading names the pulls it is read beside.
  */
-import { and, asc, eq, inArray, isNull, or, sql, type Placeholder } from 'drizzle-orm';
+import { and, asc, eq, sql, type Placeholder } from 'drizzle-orm';
 import { addDays, checkpointState } from '../../../shared/compute/schedule';
 import type { BenchResponse } from '../../../shared/schemas/studies';
 import type { Db, DbOrTx } from '../../db/client';
-import { reusable } from '../../db/prepared';
-import { batches, checkpoints, observations, products, samples, storageConditions, studies, studyAttributes, studyConditions, variants } from '../../db/schema';
-import { unconfirmedBySample } from '../oos';
+import { listRows, reusable, type Statement } from '../../db/prepared';
+import { checkpoints, products, storageConditions, studies, studyConditions } from '../../db/schema';
 import { INITIAL_GROUP, orderBenchGroups } from '../../../shared/compute/bench';
-import { studiesOfMember } from './responsibles';
 
 /** Where the Bench lists the initial test: its samples are the batches' retained samples. */
 export { INITIAL_GROUP };
@@ -64,42 +62,87 @@ export function benchCheckpointsQuery(db: DbOrTx, labId: number | Placeholder, u
 /** The same query built once per process (db/prepared.ts `reusable`): the Bench runs it on every poll. */
 const openCheckpoints = reusable((db) => benchCheckpointsQuery(db, sql.placeholder('labId'), sql.placeholder('until')));
 
-/**
- * The Bench's follow-up queries (run together): samples (each condition's, and the retained samples of
- * studies with an open initial test), attribute counts, recorded counts. Exported for `npm run bench`.
- */
-export function benchDetailQueries(db: Db, labId: number, scIds: number[], studyIds: number[], cpIds: number[], initialStudyIds: number[] = []) {
-  const where = [scIds.length ? inArray(samples.studyConditionId, scIds) : undefined, initialStudyIds.length ? and(inArray(samples.studyId, initialStudyIds), isNull(samples.studyConditionId)) : undefined].filter(
-    (x) => x != null,
-  );
-  return [
-    db
-      .select({
-        id: samples.id,
-        code: samples.code,
-        scId: samples.studyConditionId,
-        studyId: samples.studyId,
-        lotCode: batches.lotCode,
-        variantCode: variants.code,
-        order: samples.labelOrder,
-      })
-      .from(samples)
-      .innerJoin(batches, eq(batches.id, samples.batchId))
-      .innerJoin(variants, eq(variants.id, batches.variantId))
-      .where(and(eq(samples.labId, labId), where.length ? or(...where) : sql`false`))
-      .orderBy(asc(samples.labelOrder)),
-    db
-      .select({ studyId: studyAttributes.studyId, n: sql<number>`count(*)` })
-      .from(studyAttributes)
-      .where(inArray(studyAttributes.studyId, studyIds))
-      .groupBy(studyAttributes.studyId),
-    db
-      .select({ cpId: observations.checkpointId, sampleId: observations.sampleId, n: sql<number>`count(*)` })
-      .from(observations)
-      .where(and(inArray(observations.checkpointId, cpIds), eq(observations.voided, false)))
-      .groupBy(observations.checkpointId, observations.sampleId),
-  ] as const;
+/** The ids the Bench's follow-up statements are about, from its first query. */
+export interface BenchIds {
+  labId: number;
+  /** The signed-in member (studies they are responsible for). */
+  userId: number;
+  /** Conditions of open pulls. */
+  scIds: number[];
+  studyIds: number[];
+  cpIds: number[];
+  /** Studies with an open initial test, and those checkpoints. */
+  initialStudyIds: number[];
+  initialCpIds: number[];
+  /** Open control readings (the pulls each is read beside). */
+  controlIds: number[];
 }
+
+/**
+ * The Bench's follow-up statements, run together: samples (each condition's, and the retained
+ * samples of studies with an open initial test), attribute counts, recorded counts, unconfirmed
+ * out-of-specification results, the member's studies, the pulls each control reading serves, and
+ * condition samples holding initial readings. Flat SQL (issue 14: building them with the ORM on
+ * every poll was a tenth of the route's CPU). Exported for `npm run bench`, which sends the same.
+ * `cpIds` and `studyIds` are never empty (the Bench asks only when its first query found work).
+ */
+export function benchDetailStatements(ids: BenchIds) {
+  const { labId, userId, scIds, studyIds, cpIds, initialStudyIds, initialCpIds, controlIds } = ids;
+  const which = [
+    ...(scIds.length ? [{ sql: 's.study_condition_id IN (?)', values: [scIds] }] : []),
+    ...(initialStudyIds.length ? [{ sql: '(s.study_id IN (?) AND s.study_condition_id IS NULL)', values: [initialStudyIds] }] : []),
+  ];
+  return {
+    samples: {
+      sql:
+        'SELECT s.id, s.code, s.study_condition_id AS scId, s.study_id AS studyId, b.lot_code AS lotCode, v.code AS variantCode ' +
+        'FROM samples s JOIN batches b ON b.id = s.batch_id JOIN variants v ON v.id = b.variant_id ' +
+        `WHERE s.lab_id = ? AND (${which.length ? which.map((w) => w.sql).join(' OR ') : 'FALSE'}) ORDER BY s.label_order`,
+      values: [labId, ...which.flatMap((w) => w.values)],
+    },
+    attrCounts: { sql: 'SELECT study_id AS studyId, COUNT(*) AS n FROM study_attributes WHERE study_id IN (?) GROUP BY study_id', values: [studyIds] },
+    recorded: {
+      sql: 'SELECT checkpoint_id AS cpId, sample_id AS sampleId, COUNT(*) AS n FROM observations WHERE checkpoint_id IN (?) AND voided = 0 GROUP BY checkpoint_id, sample_id',
+      values: [cpIds],
+    },
+    unconfirmed: {
+      sql:
+        'SELECT checkpoint_id AS cpId, sample_id AS sampleId, COUNT(*) AS n FROM oos_investigations ' +
+        "WHERE lab_id = ? AND checkpoint_id IN (?) AND bench_step = 'unconfirmed' AND status = 'open' GROUP BY checkpoint_id, sample_id",
+      values: [labId, cpIds],
+    },
+    mine: { sql: 'SELECT study_id AS studyId FROM study_responsibles WHERE lab_id = ? AND user_id = ? AND study_id IN (?)', values: [labId, userId, studyIds] },
+    served: controlIds.length
+      ? {
+          sql:
+            'SELECT c.control_checkpoint_id AS controlId, c.label, st.name FROM checkpoints c ' +
+            'JOIN study_conditions sc ON sc.id = c.study_condition_id JOIN storage_conditions st ON st.id = sc.condition_id ' +
+            'WHERE c.lab_id = ? AND c.control_checkpoint_id IN (?) ORDER BY sc.position',
+          values: [labId, controlIds],
+        }
+      : null,
+    holders: initialCpIds.length
+      ? { sql: 'SELECT DISTINCT checkpoint_id AS cpId, sample_id AS sampleId FROM observations WHERE lab_id = ? AND checkpoint_id IN (?)', values: [labId, initialCpIds] }
+      : null,
+  } satisfies Record<string, Statement | null>;
+}
+
+/** The ids the follow-up statements need, from the first query's rows. */
+function idsOf(labId: number, userId: number, cps: Awaited<ReturnType<typeof openCheckpoints>>): BenchIds {
+  const initial = cps.filter((c) => c.cp.kind === 'initial');
+  return {
+    labId,
+    userId,
+    scIds: [...new Set(cps.filter((c) => c.cp.kind !== 'initial').map((c) => c.cp.studyConditionId!))],
+    studyIds: [...new Set(cps.map((c) => c.cp.studyId))],
+    cpIds: cps.map((c) => c.cp.id),
+    initialStudyIds: [...new Set(initial.map((c) => c.cp.studyId))],
+    initialCpIds: initial.map((c) => c.cp.id),
+    controlIds: cps.filter((c) => c.role === 'control').map((c) => c.cp.id),
+  };
+}
+
+type IdCount = { cpId: number; sampleId: number; n: number };
 
 /** `userId`: the signed-in member, to mark the studies they are responsible for (`study.mine`). */
 export async function bench(db: Db, labId: number, today: string, days: number, userId = 0): Promise<BenchResponse> {
@@ -109,32 +152,20 @@ export async function bench(db: Db, labId: number, today: string, days: number, 
   const counts = { overdue: 0, due: 0, upcoming: 0 };
   if (!cps.length) return { today, until, counts, groups: [] };
 
-  const scIds = [...new Set(cps.filter((c) => c.cp.kind !== 'initial').map((c) => c.cp.studyConditionId!))];
-  const studyIds = [...new Set(cps.map((c) => c.cp.studyId))];
-  const initialStudyIds = [...new Set(cps.filter((c) => c.cp.kind === 'initial').map((c) => c.cp.studyId))];
-  const cpIds = cps.map((c) => c.cp.id);
-  const controlIds = cps.filter((c) => c.role === 'control').map((c) => c.cp.id);
-  const [[sampleRows, attrCounts, recorded], unconfirmed, served, myStudies] = await Promise.all([
-    Promise.all(benchDetailQueries(db, labId, scIds, studyIds, cpIds, initialStudyIds)),
-    unconfirmedBySample(db, labId, cpIds),
-    controlIds.length
-      ? db
-          .select({ controlId: checkpoints.controlCheckpointId, label: checkpoints.label, name: storageConditions.name })
-          .from(checkpoints)
-          .innerJoin(studyConditions, eq(studyConditions.id, checkpoints.studyConditionId))
-          .innerJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
-          .where(and(eq(checkpoints.labId, labId), inArray(checkpoints.controlCheckpointId, controlIds)))
-          .orderBy(asc(studyConditions.position))
-      : Promise.resolve([]),
-    studiesOfMember(db, labId, userId, studyIds),
+  const q = benchDetailStatements(idsOf(labId, userId, cps));
+  const none = Promise.resolve([]);
+  const [sampleRows, attrCounts, recorded, unconfirmedRows, mineRows, served, holders] = await Promise.all([
+    listRows<{ id: number; code: string; scId: number | null; studyId: number; lotCode: string; variantCode: string }>(db, q.samples),
+    listRows<{ studyId: number; n: number }>(db, q.attrCounts),
+    listRows<IdCount>(db, q.recorded),
+    listRows<IdCount>(db, q.unconfirmed),
+    listRows<{ studyId: number }>(db, q.mine),
+    q.served ? listRows<{ controlId: number; label: string; name: string }>(db, q.served) : none,
+    // Condition samples holding initial readings (studies recorded before the initial test existed).
+    q.holders ? listRows<{ cpId: number; sampleId: number }>(db, q.holders) : none,
   ]);
-  // Condition samples holding initial readings (studies recorded before the initial test existed).
-  const holders = initialStudyIds.length
-    ? await db
-        .selectDistinct({ cpId: observations.checkpointId, sampleId: observations.sampleId })
-        .from(observations)
-        .where(and(eq(observations.labId, labId), inArray(observations.checkpointId, cps.filter((c) => c.cp.kind === 'initial').map((c) => c.cp.id))))
-    : [];
+  const unconfirmed = new Map(unconfirmedRows.map((r) => [`${r.cpId}:${r.sampleId}`, Number(r.n)]));
+  const myStudies = new Set(mineRows.map((r) => r.studyId));
 
   const groups: BenchResponse['groups'] = [];
   for (const c of cps) {

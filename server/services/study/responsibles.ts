@@ -39,12 +39,3 @@ export async function responsiblesOf(db: DbOrTx, labId: number, studyIds: number
   return out;
 }
 
-/** The ids of the studies (of `studyIds`) for which this member is responsible. */
-export async function studiesOfMember(db: DbOrTx, labId: number, userId: number, studyIds: number[]): Promise<Set<number>> {
-  if (!studyIds.length) return new Set();
-  const rows = await db
-    .select({ studyId: studyResponsibles.studyId })
-    .from(studyResponsibles)
-    .where(and(eq(studyResponsibles.labId, labId), eq(studyResponsibles.userId, userId), inArray(studyResponsibles.studyId, studyIds)));
-  return new Set(rows.map((r) => r.studyId));
-}
