@@ -454,5 +454,18 @@ describe('existing studies: the migration to one initial test per batch keeps ev
     const ovenSample = (await t.db.select().from(samples).where(and(eq(samples.studyConditionId, conds[1]), eq(samples.batchId, cat.batchIds[0]))))[0];
     const sheet = (await technician.get(`/api/samples/${ovenSample.code}/checkpoints/${cpIds['1:Week 1']}`)).body.sheet;
     expect(sheet.attributes[0].baseline).toMatchObject({ value: 5.4, label: 'Initial' });
+
+    // Open again, the initial test is on the Bench with the condition samples that hold its readings
+    // (the fridge's; the study has no retained samples), each with both readings counted.
+    await t.db.update(checkpoints).set({ status: 'open' }).where(eq(checkpoints.id, init[0].id));
+    const bench = (await technician.get('/api/bench?days=7')).body as {
+      groups: { conditions: { checkpoints: { id: number; samples: { code: string; recorded: number }[]; toRecord: number }[] }[] }[];
+    };
+    const onBench = bench.groups.flatMap((g) => g.conditions.flatMap((c) => c.checkpoints)).find((c) => c.id === init[0].id)!;
+    const fridgeCodes = (await t.db.select({ code: samples.code }).from(samples).where(eq(samples.studyConditionId, conds[0]))).map((x) => x.code);
+    expect(onBench.samples.map((x) => x.code).sort()).toEqual(fridgeCodes.sort());
+    expect(onBench.samples.map((x) => x.recorded)).toEqual([2, 2]);
+    expect(onBench.toRecord).toBe(0);
+    await t.db.update(checkpoints).set({ status: 'done' }).where(eq(checkpoints.id, init[0].id));
   });
 });
