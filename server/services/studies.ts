@@ -4,4 +4,4 @@ export { checkPlan, planCalendar, planOf, previewPlan, savePlan, type CheckedPla
 export { freshSampleCodes, materializeStudy, newSampleCode, startStudy } from './study/start';
 export { amendStudy, markMissed } from './study/amend';
 export { checkpointView, listStudies, studyDetail } from './study/detail';
-export { bench, benchCheckpointsQuery, benchDetailStatements, INITIAL_GROUP } from './study/bench';
+export { bench, BENCH_CHECKPOINTS_SQL, benchDetailStatements, benchIdsOf, INITIAL_GROUP, openCheckpoints } from './study/bench';

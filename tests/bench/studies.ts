@@ -16,7 +16,7 @@
  */
 import type { PoolConnection, RowDataPacket } from 'mysql2/promise';
 import { analyzeStudy } from '../../server/services/analysis';
-import { benchCheckpointsQuery, benchDetailStatements } from '../../server/services/studies';
+import { BENCH_CHECKPOINTS_SQL, benchDetailStatements, benchIdsOf, openCheckpoints } from '../../server/services/studies';
 import { addDays, localDateInZone } from '../../shared/compute/schedule';
 import { INITIAL_LABEL } from '../../shared/compute/study-calendar';
 import type { BenchContext, Scenario } from './scenario';
@@ -118,22 +118,11 @@ export function benchScenario(): Scenario {
       }
       ctx.log(`  The Bench shows ${body.counts.overdue} overdue, ${body.counts.due} due and ${body.counts.upcoming} upcoming checkpoints.`);
 
-      // The SQL the route sends, from the same query builders the service uses.
+      // The SQL the route sends, from the same statements the service uses.
       const until = addDays(today, 7);
-      const mainQuery = benchCheckpointsQuery(ctx.db, lab.id, until);
-      main = mainQuery.toSQL();
-      const cps = await mainQuery;
-      const initial = cps.filter((x) => x.cp.kind === 'initial');
-      const ids = {
-        labId: lab.id,
-        scIds: [...new Set(cps.flatMap((x) => (x.cp.kind === 'initial' || x.cp.studyConditionId == null ? [] : [x.cp.studyConditionId])))],
-        studyIds: [...new Set(cps.map((x) => x.cp.studyId))],
-        cpIds: cps.map((x) => x.cp.id),
-        initialStudyIds: [...new Set(initial.map((x) => x.cp.studyId))],
-        initialCpIds: initial.map((x) => x.cp.id),
-        controlIds: cps.filter((x) => x.role === 'control').map((x) => x.cp.id),
-      };
-      details = new Map(sessions.map((s) => [s.userId, Object.values(benchDetailStatements({ ...ids, userId: s.userId })).filter((x) => x != null)]));
+      main = { sql: BENCH_CHECKPOINTS_SQL, params: [lab.id, until] };
+      const cps = await openCheckpoints(ctx.db, lab.id, until);
+      details = new Map(sessions.map((s) => [s.userId, Object.values(benchDetailStatements(benchIdsOf(lab.id, s.userId, cps))).filter((x) => x != null)]));
       // The session read, the first query and the follow-ups (the raw run once sent only 5 of them).
       statements = 2 + details.get(sessions[0].userId)!.length;
     },
@@ -147,7 +136,7 @@ export function benchScenario(): Scenario {
       };
     },
     raw: (ctx) => [
-      { name: "the route's first (checkpoint) query alone", once: () => ctx.pool.query(main.sql, main.params) },
+      { name: "the route's first (checkpoint) query alone", once: () => ctx.pool.execute(main.sql, main.params as (string | number)[]) },
       {
         get name() {
           return `all ${statements} statements a request makes`;
@@ -155,7 +144,7 @@ export function benchScenario(): Scenario {
         async once(loop) {
           const s = sessions[loop % sessions.length];
           await sessionRead(ctx, s.sessionId);
-          await ctx.pool.query(main.sql, main.params);
+          await ctx.pool.execute(main.sql, main.params as (string | number)[]);
           await Promise.all(details.get(s.userId)!.map((d) => ctx.pool.query(d.sql, d.values)));
         },
       },

@@ -3,64 +3,60 @@
  * including overdue ones, grouped by location then condition. The initial test (retained samples, in
  * no condition) has its own group; a control reading names the pulls it is read beside.
  */
-import { and, asc, eq, sql, type Placeholder } from 'drizzle-orm';
 import { addDays, checkpointState } from '../../../shared/compute/schedule';
 import type { BenchResponse } from '../../../shared/schemas/studies';
-import type { Db, DbOrTx } from '../../db/client';
-import { listRows, reusable, type Statement } from '../../db/prepared';
-import { checkpoints, products, storageConditions, studies, studyConditions } from '../../db/schema';
+import type { Db } from '../../db/client';
+import { listRows, rows, type Statement } from '../../db/prepared';
 import { INITIAL_GROUP, orderBenchGroups } from '../../../shared/compute/bench';
 
 /** Where the Bench lists the initial test: its samples are the batches' retained samples. */
 export { INITIAL_GROUP };
 
-/** The checkpoint columns the Bench uses, by name (not the whole row). */
-const benchCheckpointColumns = {
-  id: checkpoints.id,
-  kind: checkpoints.kind,
-  label: checkpoints.label,
-  studyId: checkpoints.studyId,
-  studyConditionId: checkpoints.studyConditionId,
-  dueDate: checkpoints.dueDate,
-  windowBefore: checkpoints.windowBefore,
-  windowAfter: checkpoints.windowAfter,
-};
-
 /**
- * The Bench's first query: open checkpoints of running studies whose window opens by `until`, with
- * values or placeholders. Exported for `npm run bench` (its SQL).
+ * The Bench's first statement: open checkpoints of running studies whose window opens by the date
+ * given, with their study, product and condition. Values: lab id, date. A prepared statement (the
+ * Bench runs it on every poll); `npm run bench` sends the same text.
  */
-export function benchCheckpointsQuery(db: DbOrTx, labId: number | Placeholder, until: string | Placeholder) {
-  return db
-    .select({
-      cp: benchCheckpointColumns,
-      studyTitle: studies.title,
-      productName: products.name,
-      condId: storageConditions.id,
-      condName: storageConditions.name,
-      condKind: storageConditions.kind,
-      role: studyConditions.role,
-      setpointC: storageConditions.setpointC,
-      location: storageConditions.location,
-    })
-    .from(checkpoints)
-    .innerJoin(studies, eq(studies.id, checkpoints.studyId))
-    .innerJoin(products, eq(products.id, studies.productId))
-    .leftJoin(studyConditions, eq(studyConditions.id, checkpoints.studyConditionId))
-    .leftJoin(storageConditions, eq(storageConditions.id, studyConditions.conditionId))
-    .where(
-      and(
-        eq(checkpoints.labId, labId),
-        eq(checkpoints.status, 'open'),
-        eq(studies.status, 'running'),
-        sql`DATE_SUB(${checkpoints.dueDate}, INTERVAL ${checkpoints.windowBefore} DAY) <= ${until}`,
-      ),
-    )
-    .orderBy(asc(storageConditions.location), asc(storageConditions.name), asc(checkpoints.dueDate));
+export const BENCH_CHECKPOINTS_SQL =
+  'SELECT c.id, c.kind, c.label, c.study_id AS studyId, c.study_condition_id AS studyConditionId, ' +
+  "DATE_FORMAT(c.due_date, '%Y-%m-%d') AS dueDate, c.window_before AS windowBefore, c.window_after AS windowAfter, " +
+  's.title AS studyTitle, p.name AS productName, st.id AS condId, st.name AS condName, st.kind AS condKind, sc.role, ' +
+  'st.setpoint_c AS setpointC, st.location ' +
+  'FROM checkpoints c JOIN studies s ON s.id = c.study_id JOIN products p ON p.id = s.product_id ' +
+  'LEFT JOIN study_conditions sc ON sc.id = c.study_condition_id LEFT JOIN storage_conditions st ON st.id = sc.condition_id ' +
+  "WHERE c.lab_id = ? AND c.status = 'open' AND s.status = 'running' AND DATE_SUB(c.due_date, INTERVAL c.window_before DAY) <= ? " +
+  'ORDER BY st.location, st.name, c.due_date';
+
+type Checkpoint = BenchResponse['groups'][number]['conditions'][number]['checkpoints'][number];
+type Condition = BenchResponse['groups'][number]['conditions'][number];
+
+/** One row of {@link BENCH_CHECKPOINTS_SQL}. */
+export interface OpenCheckpoint {
+  id: number;
+  kind: Checkpoint['kind'];
+  label: string;
+  studyId: number;
+  studyConditionId: number | null;
+  dueDate: string;
+  windowBefore: number;
+  windowAfter: number;
+  studyTitle: string;
+  productName: string;
+  condId: number | null;
+  condName: string | null;
+  condKind: Condition['kind'];
+  role: Condition['role'];
+  setpointC: number | null;
+  location: string | null;
 }
 
-/** The same query built once per process (db/prepared.ts `reusable`): the Bench runs it on every poll. */
-const openCheckpoints = reusable((db) => benchCheckpointsQuery(db, sql.placeholder('labId'), sql.placeholder('until')));
+/** Open checkpoints whose window opens by `until` (see {@link BENCH_CHECKPOINTS_SQL}). */
+export async function openCheckpoints(db: Db, labId: number, until: string): Promise<OpenCheckpoint[]> {
+  const list = await rows<OpenCheckpoint & { setpointC: string | number | null }>(db, BENCH_CHECKPOINTS_SQL, [labId, until]);
+  // DECIMAL comes back as a string.
+  for (const r of list) if (r.setpointC != null) r.setpointC = Number(r.setpointC);
+  return list as OpenCheckpoint[];
+}
 
 /** The ids the Bench's follow-up statements are about, from its first query. */
 export interface BenchIds {
@@ -127,18 +123,18 @@ export function benchDetailStatements(ids: BenchIds) {
   } satisfies Record<string, Statement | null>;
 }
 
-/** The ids the follow-up statements need, from the first query's rows. */
-function idsOf(labId: number, userId: number, cps: Awaited<ReturnType<typeof openCheckpoints>>): BenchIds {
-  const initial = cps.filter((c) => c.cp.kind === 'initial');
+/** The ids the follow-up statements need, from the first statement's rows. Exported for `npm run bench`. */
+export function benchIdsOf(labId: number, userId: number, cps: OpenCheckpoint[]): BenchIds {
+  const initial = cps.filter((c) => c.kind === 'initial');
   return {
     labId,
     userId,
-    scIds: [...new Set(cps.filter((c) => c.cp.kind !== 'initial').map((c) => c.cp.studyConditionId!))],
-    studyIds: [...new Set(cps.map((c) => c.cp.studyId))],
-    cpIds: cps.map((c) => c.cp.id),
-    initialStudyIds: [...new Set(initial.map((c) => c.cp.studyId))],
-    initialCpIds: initial.map((c) => c.cp.id),
-    controlIds: cps.filter((c) => c.role === 'control').map((c) => c.cp.id),
+    scIds: [...new Set(cps.filter((c) => c.kind !== 'initial').map((c) => c.studyConditionId!))],
+    studyIds: [...new Set(cps.map((c) => c.studyId))],
+    cpIds: cps.map((c) => c.id),
+    initialStudyIds: [...new Set(initial.map((c) => c.studyId))],
+    initialCpIds: initial.map((c) => c.id),
+    controlIds: cps.filter((c) => c.role === 'control').map((c) => c.id),
   };
 }
 
@@ -147,12 +143,12 @@ type IdCount = { cpId: number; sampleId: number; n: number };
 /** `userId`: the signed-in member, to mark the studies they are responsible for (`study.mine`). */
 export async function bench(db: Db, labId: number, today: string, days: number, userId = 0): Promise<BenchResponse> {
   const until = addDays(today, days);
-  const cps = await openCheckpoints(db, { labId, until });
+  const cps = await openCheckpoints(db, labId, until);
 
   const counts = { overdue: 0, due: 0, upcoming: 0 };
   if (!cps.length) return { today, until, counts, groups: [] };
 
-  const q = benchDetailStatements(idsOf(labId, userId, cps));
+  const q = benchDetailStatements(benchIdsOf(labId, userId, cps));
   const none = Promise.resolve([]);
   const [sampleRows, attrCounts, recorded, unconfirmedRows, mineRows, served, holders] = await Promise.all([
     listRows<{ id: number; code: string; scId: number | null; studyId: number; lotCode: string; variantCode: string }>(db, q.samples),
@@ -169,9 +165,9 @@ export async function bench(db: Db, labId: number, today: string, days: number, 
 
   const groups: BenchResponse['groups'] = [];
   for (const c of cps) {
-    const state = checkpointState(c.cp.dueDate, c.cp.windowBefore, c.cp.windowAfter, today, false, false);
+    const state = checkpointState(c.dueDate, c.windowBefore, c.windowAfter, today, false, false);
     if (state === 'overdue' || state === 'due' || state === 'upcoming') counts[state]++;
-    const initial = c.cp.kind === 'initial';
+    const initial = c.kind === 'initial';
     const location = initial ? INITIAL_GROUP : c.location || 'No location set';
     let group = groups.find((g) => g.location === location);
     if (!group) groups.push((group = { location, conditions: [] }));
@@ -184,33 +180,33 @@ export async function bench(db: Db, labId: number, today: string, days: number, 
           : { id: c.condId, name: c.condName!, kind: c.condKind, role: c.role, setpointC: c.setpointC, checkpoints: [] }),
       );
     }
-    const attributeCount = Number(attrCounts.find((a) => a.studyId === c.cp.studyId)?.n ?? 0);
+    const attributeCount = Number(attrCounts.find((a) => a.studyId === c.studyId)?.n ?? 0);
     const mine = initial
       ? sampleRows.filter(
           (s) =>
-            s.studyId === c.cp.studyId &&
-            (s.scId == null || holders.some((h) => h.cpId === c.cp.id && h.sampleId === s.id)),
+            s.studyId === c.studyId &&
+            (s.scId == null || holders.some((h) => h.cpId === c.id && h.sampleId === s.id)),
         )
-      : sampleRows.filter((s) => s.scId === c.cp.studyConditionId);
+      : sampleRows.filter((s) => s.scId === c.studyConditionId);
     const benchSamples = mine.map((s) => ({
       id: s.id,
       code: s.code,
       lotCode: s.lotCode,
       variantCode: s.variantCode,
-      recorded: Number(recorded.find((r) => r.cpId === c.cp.id && r.sampleId === s.id)?.n ?? 0),
-      unconfirmed: unconfirmed.get(`${c.cp.id}:${s.id}`) ?? 0,
+      recorded: Number(recorded.find((r) => r.cpId === c.id && r.sampleId === s.id)?.n ?? 0),
+      unconfirmed: unconfirmed.get(`${c.id}:${s.id}`) ?? 0,
     }));
     const done = benchSamples.reduce((sum, s) => sum + s.recorded, 0);
     cond.checkpoints.push({
-      id: c.cp.id,
-      kind: c.cp.kind,
-      label: c.cp.label,
-      serves: served.filter((x) => x.controlId === c.cp.id).map((x) => `${x.name} ${x.label}`),
-      dueDate: c.cp.dueDate,
-      windowStart: addDays(c.cp.dueDate, -c.cp.windowBefore),
-      windowEnd: addDays(c.cp.dueDate, c.cp.windowAfter),
+      id: c.id,
+      kind: c.kind,
+      label: c.label,
+      serves: served.filter((x) => x.controlId === c.id).map((x) => `${x.name} ${x.label}`),
+      dueDate: c.dueDate,
+      windowStart: addDays(c.dueDate, -c.windowBefore),
+      windowEnd: addDays(c.dueDate, c.windowAfter),
       state,
-      study: { id: c.cp.studyId, title: c.studyTitle, product: c.productName, mine: myStudies.has(c.cp.studyId) },
+      study: { id: c.studyId, title: c.studyTitle, product: c.productName, mine: myStudies.has(c.studyId) },
       attributeCount,
       toRecord: Math.max(0, benchSamples.length * attributeCount - done),
       samples: benchSamples,
