@@ -90,8 +90,8 @@ export default defineConfig({
           // loads both cores (a status that flipped in 1.4 s failed a run). A test may still pass its own.
           expect: { poll: { timeout: 10_000 } },
           // A test that fails is run once more: a browser test on a loaded 2-core machine still misses a
-          // moment now and then (one in about three full runs failed one of ~300 tests, each time a
-          // different one). npm test lists every test that passed only on its retry, with the first
+          // moment now and then (four recent full runs each failed one test, each a different one:
+          // plan-template, the label sheet, an S3 upload, and one CI did not name). npm test lists every test that passed only on its retry, with the first
           // failure, so a flaky test stays visible (tests/run.ts); fix it rather than live with it.
           retry: 1,
           // One file at a time (Chromium takes a core), after the other projects when all run in one

@@ -52,10 +52,10 @@ export interface OpenCheckpoint {
 
 /** Open checkpoints whose window opens by `until` (see {@link BENCH_CHECKPOINTS_SQL}). */
 export async function openCheckpoints(db: Db, labId: number, until: string): Promise<OpenCheckpoint[]> {
-  const list = await rows<OpenCheckpoint & { setpointC: string | number | null }>(db, BENCH_CHECKPOINTS_SQL, [labId, until]);
+  const list = await rows<OpenCheckpoint>(db, BENCH_CHECKPOINTS_SQL, [labId, until]);
   // DECIMAL comes back as a string.
   for (const r of list) if (r.setpointC != null) r.setpointC = Number(r.setpointC);
-  return list as OpenCheckpoint[];
+  return list;
 }
 
 /** The ids the Bench's follow-up statements are about, from its first query. */
@@ -78,8 +78,8 @@ export interface BenchIds {
  * The Bench's follow-up statements, run together: samples (each condition's, and the retained
  * samples of studies with an open initial test), attribute counts, recorded counts, unconfirmed
  * out-of-specification results, the member's studies, the pulls each control reading serves, and
- * condition samples holding initial readings. Flat SQL (issue 14: building them with the ORM on
- * every poll was a tenth of the route's CPU). Exported for `npm run bench`, which sends the same.
+ * condition samples holding initial readings. Flat SQL (issue 14: built with the ORM on every poll,
+ * they cost more than half the route's CPU). Exported for `npm run bench`, which sends the same.
  * `cpIds` and `studyIds` are never empty (the Bench asks only when its first query found work).
  */
 export function benchDetailStatements(ids: BenchIds) {
