@@ -633,6 +633,12 @@ describe('Release review', () => {
     expect(await page.getByTestId(`decided-${id}-B`).textContent()).toMatch(/B · Not released/);
     await noBadText(page);
     await page.screenshot({ path: join(SHOTS, 'reviews-decided.png'), fullPage: true });
+    // At phone size the card is one column, its title as wide as the card (the Open link once made a
+    // second grid column there and squeezed the title to a word a line).
+    await page.setViewportSize(PHONE);
+    await expect.poll(async () => Math.round((await done.locator('.main').boundingBox())!.width)).toBeGreaterThan(280);
+    await page.screenshot({ path: join(SHOTS, 'reviews-decided-phone.png'), fullPage: true });
+    await page.setViewportSize(VIEWPORTS.desktop);
     await page.getByTestId(`open-decided-${id}`).click();
     await page.waitForURL(new RegExp(`/reviews/${id}$`));
     expect(problems).toEqual([]);
